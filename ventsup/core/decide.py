@@ -1,0 +1,304 @@
+"""The decision function: one zone, one time, every layer in priority order.
+
+:func:`decide` is pure: it reads no clock, does no I/O, keeps no global state
+and does not mutate its arguments. The live daemon, the replay and the
+simulator all call it, so a rule behaves the same everywhere.
+
+How the layers combine
+----------------------
+1. Life safety: while an alarm is latched, the fire-strategy targets are the
+   result and nothing below is consulted (its timers still run).
+2-3. Protection and fault handling give caps per opening; an unknown indoor
+   temperature pins the zone to its fallback.
+4. An operator override, 5. the schedule (security caps; which comfort
+   functions may run) and 6. comfort propose targets; 7. actuator care may
+   hold a comfort-layer move. Caps of layers 2, 3 and 5 are applied last, so
+   they act at once whatever the dwell timers say.
+
+The decision names the highest layer that shaped the result: a cap that binds
+(or is in force while the zone ends up closed), else the layer that wanted the
+targets.
+"""
+
+from __future__ import annotations
+
+from dataclasses import replace
+
+from ventsup.config.model import SiteConfig
+from ventsup.core.context import Context, known
+from ventsup.core.layers import actuator, comfort, faults, override, protection, safety, schedule
+from ventsup.core.state import (
+    Cause,
+    Decision,
+    Layer,
+    Limit,
+    Mode,
+    OpeningState,
+    OverrideRequest,
+    OverrideState,
+    ZoneState,
+)
+
+__all__ = ["decide", "initial_state"]
+
+Targets = dict[str, float | None]
+
+
+def initial_state() -> ZoneState:
+    """The state of a zone never evaluated before: nothing commanded, no timers."""
+    return ZoneState()
+
+
+def decide(
+    config: SiteConfig,
+    zone: str,
+    inputs: object,
+    state: ZoneState,
+    t: float,
+    request: OverrideRequest | None = None,
+) -> tuple[Decision, ZoneState]:
+    """Decide the openings of one zone at time ``t``.
+
+    Parameters
+    ----------
+    config : SiteConfig
+        The validated site.
+    zone : str
+        Name of the zone in ``config.zones``.
+    inputs : ZoneInputs
+        The zone's sampled-and-held readings at ``t`` (:func:`ventsup.core.inputs.zone_inputs`).
+    state : ZoneState
+        The state returned by the previous evaluation (or :func:`initial_state`).
+    t : float
+        Evaluation time [s since the Unix epoch, UTC].
+    request : OverrideRequest, optional
+        An operator request arriving with this evaluation.
+
+    Returns
+    -------
+    (Decision, ZoneState)
+        What to command and why, and the state to pass to the next evaluation.
+    """
+    if zone not in config.zones:
+        raise KeyError(f"zone {zone!r} is not in the site config; zones: {', '.join(config.zones)}")
+    events: list[str] = []
+    if request is not None:
+        state, event = override.apply_request(config, zone, state, request, t)
+        events.append(event)
+    ctx = Context(config, zone, inputs, state, t)
+
+    alarm = safety.evaluate(ctx)
+    prot = protection.evaluate(ctx)
+    fault = faults.evaluate(ctx, alarm.unknown)
+    active_override, override_events = override.expire(state, t)
+    sched = schedule.evaluate(ctx)
+    wants = comfort.evaluate(ctx, sched.occupied, sched.flush_hours)
+    events += [*alarm.events, *prot.events, *override_events]
+
+    limits = (*prot.limits, *fault.limits)
+    all_limits = (*limits, sched.security) if sched.security else limits
+    caps = _min_caps(ctx, all_limits)
+    comfort_moves: set[str] = set()
+    held: dict[str, str] = {}
+
+    if alarm.latched:
+        targets: Targets = dict(alarm.targets)
+        fire = any(v is not None for v in targets.values())
+        mode = Mode.FIRE_POSITION if fire else Mode.RELEASED
+        layer, cause, reason = Layer.LIFE_SAFETY, Cause.SMOKE, alarm.reason
+    else:
+        if fault.pin is not None:
+            wanted = dict(fault.pin)
+            caps = _min_caps(ctx, prot.limits)  # the pin replaces layers 4-7
+        elif active_override is not None:
+            wanted = dict(active_override.targets)
+            caps = _min_caps(ctx, limits)  # an override may open beyond the schedule
+        else:
+            wanted = _comfort_targets(ctx, wants.fraction, caps, held, comfort_moves)
+        targets = {n: min(wanted[n], caps[n]) for n in ctx.openings}
+        if fault.pin is None and active_override is None:
+            # what comfort asked for before any cap, to tell which cap decided
+            wanted = {n: wanted[n] if n in held else wants.fraction for n in ctx.openings}
+        mode, layer, cause, reason = _explain(
+            ctx, wanted, targets, limits, sched.security, fault, active_override, wants, held
+        )
+
+    decision = Decision(
+        zone=zone,
+        t=t,
+        targets=targets,
+        mode=mode,
+        layer=layer,
+        cause=cause,
+        reason=reason,
+        windows_open=_windows_open(ctx, targets),
+        open_area=_open_area(ctx, targets),
+        limits=all_limits,
+        facts=_facts(ctx, wants.facts),
+        events=tuple(events),
+    )
+    next_state = ZoneState(
+        openings=_next_openings(ctx, targets, prot.faults, comfort_moves),
+        alarm_latched=alarm.latched,
+        alarm_since=alarm.since,
+        alarm_clear_since=alarm.clear_since,
+        rain_last_wet=prot.rain_last_wet,
+        rain_since=prot.rain_since,
+        wind=prot.wind,
+        cooling=wants.cooling,
+        flush=wants.flush,
+        air_quality=wants.air_quality,
+        override=active_override,
+        mode=mode,
+        mode_since=state.mode_since if state.mode == mode else t,
+        last_t=t,
+    )
+    return decision, next_state
+
+
+def _min_caps(ctx: Context, limits: tuple[Limit, ...]) -> dict[str, float]:
+    caps = dict.fromkeys(ctx.openings, 1.0)
+    for limit in limits:
+        for name, cap in limit.caps.items():
+            caps[name] = min(caps[name], cap)
+    return caps
+
+
+def _comfort_targets(
+    ctx: Context,
+    fraction: float,
+    caps: dict[str, float],
+    held: dict[str, str],
+    comfort_moves: set[str],
+) -> dict[str, float]:
+    """Comfort wants ``fraction`` everywhere; caps act at once, actuator care smooths the rest."""
+    wanted: dict[str, float] = {}
+    careful: dict[str, float] = {}
+    for name in ctx.openings:
+        capped = min(fraction, caps[name])
+        current = ctx.state.opening(name).target
+        if current is not None and caps[name] < current:
+            wanted[name] = capped  # a higher layer closes or caps: at once
+        else:
+            careful[name] = capped
+    care = actuator.apply(ctx, careful)
+    wanted.update(care.targets)
+    held.update(care.held)
+    for name, target in care.targets.items():
+        if target != ctx.state.opening(name).target and ctx.state.opening(name).target is not None:
+            comfort_moves.add(name)
+    return wanted
+
+
+def _binding(limit: Limit, wanted: dict[str, float], targets: Targets) -> bool:
+    """A cap decides when it lowers a target, or is in force while the zone ends up closed."""
+    if not any(cap < 1.0 for cap in limit.caps.values()):
+        return False
+    if any(cap < wanted.get(n, 0.0) for n, cap in limit.caps.items()):
+        return True
+    return all(v == 0.0 for v in targets.values())
+
+
+def _explain(
+    ctx: Context,
+    wanted: dict[str, float],
+    targets: Targets,
+    limits: tuple[Limit, ...],
+    security: Limit | None,
+    fault: faults.FaultResult,
+    active_override: OverrideState | None,
+    wants: comfort.ComfortResult,
+    held: dict[str, str],
+) -> tuple[Mode, Layer, Cause, str]:
+    closed = all(v == 0.0 for v in targets.values())
+    for limit in sorted(limits, key=lambda lim: lim.layer):
+        if _binding(limit, wanted, targets):
+            mode = Mode.PROTECTED if limit.layer == Layer.PROTECTION else Mode.FAULT
+            return mode, limit.layer, limit.cause, f"{'closed' if closed else 'capped'}: {limit.reason}"
+    if fault.pin is not None:
+        return Mode.FAULT, Layer.FAULT, Cause.FAULT, f"fault: {fault.pin_reason}"
+    if active_override is not None:
+        ov = active_override
+        what = {"open": "opened", "close": "closed", "hold": "held"}[ov.action]
+        reason = f"{what} by operator {ov.who} until {ctx.clock(ov.until)}"
+        return Mode.OVERRIDE, Layer.OVERRIDE, Cause.OPERATOR, reason + (f": {ov.why}" if ov.why else "")
+    if security is not None and (
+        _binding(security, wanted, targets) or wants.mode in (Mode.IDLE, Mode.UNOCCUPIED)
+    ):
+        return Mode.SECURED, Layer.SCHEDULE, Cause.SCHEDULE, f"{'closed' if closed else 'capped'}: {security.reason}"
+    if held:
+        groups: dict[str, list[str]] = {}
+        for name, why in sorted(held.items()):
+            groups.setdefault(f"at {ctx.fmt(targets[name], 'fraction')} ({why})", []).append(name)
+        positions = "; ".join(f"{', '.join(names)} {what}" for what, names in groups.items())
+        return (
+            Mode.HELD,
+            Layer.ACTUATOR_CARE,
+            Cause.ACTUATOR_CARE,
+            f"held: {positions}; without the hold: {wants.reason}",
+        )
+    layer = Layer.SCHEDULE if wants.mode == Mode.UNOCCUPIED else Layer.COMFORT
+    return wants.mode, layer, wants.cause, wants.reason
+
+
+def _released_position(ctx: Context, name: str) -> float | None:
+    reading = ctx.inputs.feedback.get(name)  # type: ignore[attr-defined]
+    if reading is not None and known(reading):
+        return float(reading.value)
+    return None
+
+
+def _windows_open(ctx: Context, targets: Targets) -> bool:
+    """The HVAC interlock output: open if any target is open; a released opening
+    counts as open unless its feedback says closed."""
+    for name, target in targets.items():
+        if target is None:
+            position = _released_position(ctx, name)
+            if position is None or position > 0.0:
+                return True
+        elif target > 0.0:
+            return True
+    return False
+
+
+def _open_area(ctx: Context, targets: Targets) -> float:
+    """Free area commanded open [m²]; released openings by feedback (unknown: counted fully)."""
+    area = 0.0
+    for name, target in targets.items():
+        position = target if target is not None else _released_position(ctx, name)
+        area += ctx.openings[name].area * (1.0 if position is None else position)
+    return round(area, 9)
+
+
+def _facts(ctx: Context, comfort_facts: dict[str, float | str | bool | None]) -> dict[str, float | str | bool | None]:
+    facts = dict(comfort_facts)
+    for name in ("wind_speed", "wind_direction", "rain"):
+        reading = ctx.input(name)
+        facts[name] = reading.value if known(reading) else None
+    return facts
+
+
+def _next_openings(
+    ctx: Context,
+    targets: Targets,
+    fault_since: dict[str, float | None],
+    comfort_moves: set[str],
+) -> dict[str, OpeningState]:
+    t = ctx.t
+    result: dict[str, OpeningState] = {}
+    for name, target in targets.items():
+        prev = ctx.state.opening(name)
+        moves = actuator.recent_moves(prev.moves, t)
+        if name in comfort_moves:
+            moves = (*moves, t)
+        state = replace(prev, moves=moves, fault_since=fault_since.get(name))
+        if target != prev.target:
+            was_open = prev.target is not None and prev.target > 0.0
+            is_open = target is not None and target > 0.0
+            state = replace(state, target=target, changed_at=t)
+            if is_open and not was_open:
+                state = replace(state, opened_at=t)
+            if was_open and target == 0.0:
+                state = replace(state, closed_at=t)
+        result[name] = state
+    return result

@@ -1,0 +1,1 @@
+"""Drivers: the loops around the core (live daemon, replay, reporting)."""

@@ -1,0 +1,1 @@
+"""Edges: each module wraps exactly one outside thing (payloads, MQTT, SQLite, files, HTML)."""
