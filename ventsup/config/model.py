@@ -29,7 +29,7 @@ from pydantic import (
     field_validator,
 )
 
-from ventsup.config.units import UnitError, parse_quantity
+from ventsup.config.units import UnitError, parse_quantity, unit_names
 
 __all__ = [
     "Actuator",
@@ -222,8 +222,10 @@ class Point(_Frozen):
             raise ValueError(f"expected no unit for a {kind} point")
         try:
             parse_quantity(f"1 {value}", quantity)
-        except UnitError as exc:
-            raise ValueError(f"expected a unit of {quantity}: {exc}") from None
+        except UnitError:
+            raise ValueError(
+                f"expected a unit for a {kind} point: one of {unit_names(quantity)}"
+            ) from None
         return value
 
     @field_validator("valid_range", mode="before")
@@ -366,9 +368,9 @@ class Period(_Frozen):
     A period that crosses midnight belongs to the day it starts on.
     """
 
-    days: frozenset[int]
-    start_minute: int
-    end_minute: int
+    days: frozenset[Annotated[int, Field(ge=0, le=6)]]  # 0 Monday .. 6 Sunday
+    start_minute: int = Field(ge=0, le=1440)
+    end_minute: int = Field(ge=0, le=1440)
 
     @classmethod
     def parse(cls, text: str) -> Period:

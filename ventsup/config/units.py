@@ -41,6 +41,7 @@ __all__ = [
     "format_quantity",
     "parse_quantity",
     "to_display",
+    "unit_names",
 ]
 
 UnitSystem = Literal["SI", "IP"]
@@ -123,6 +124,25 @@ _NOUNS: dict[str, tuple[str, str]] = {
     "concentration": ("concentration", "'800 ppm'"),
     "angle": ("angle in degrees", "'225 deg'"),
 }
+# unit names as people write them (matching is case-insensitive)
+_UNIT_NAMES: dict[str, str] = {
+    "temperature": "C, degC, °C, K, F, degF, °F",
+    "temperature_delta": "K, C, degC, F, degF",
+    "speed": "m/s, km/h, kph, mph, kn, kt, knots, ft/min, fpm",
+    "duration": "s, sec, min, h, hr, d",
+    "area": "m2, m², cm2, ft2, ft², sqft",
+    "length": "m, cm, mm, ft, in",
+    "concentration": "ppm",
+    "fraction": "%",
+    "angle": "deg, °",
+}
+
+
+def unit_names(quantity: str) -> str:
+    """The units accepted for ``quantity``, as people write them: ``"m/s, km/h, ..."``."""
+    return _UNIT_NAMES[quantity]
+
+
 _FRACTION = "a fraction from 0 to 1 or a percentage such as '30 %'"
 
 
@@ -193,25 +213,26 @@ def parse_quantity(raw: object, quantity: str) -> float:
     if isinstance(raw, bool) or not isinstance(raw, int | float | str):
         raise UnitError(f"expected {expected}")
     if isinstance(raw, int | float):
-        number, unit = float(raw), ""
+        number, written = float(raw), ""
     else:
         match = _NUMBER_UNIT.match(raw)
         if match is None:
             raise UnitError(f"expected {expected}")
-        number, unit = float(match.group(1)), (match.group(2) or "").strip().lower()
+        number, written = float(match.group(1)), (match.group(2) or "").strip()
+    unit = written.lower().replace(" ", "")
     if not math.isfinite(number):
         raise UnitError(f"expected {expected} (a finite number)")
     if not unit:
         return _clean(number)
+    wrong_unit = f"expected {expected}; {written!r} is not one of {unit_names(quantity)}"
     if quantity == "temperature":
-        convert = _TEMPERATURE.get(unit.replace(" ", ""))
+        convert = _TEMPERATURE.get(unit)
         if convert is None:
-            raise UnitError(f"expected {expected}; unit {unit!r} is not a temperature unit")
+            raise UnitError(wrong_unit)
         return _clean(convert(number))
-    scale = _SCALES[quantity].get(unit.replace(" ", ""))
+    scale = _SCALES[quantity].get(unit)
     if scale is None:
-        units = ", ".join(sorted(_SCALES[quantity]))
-        raise UnitError(f"expected {expected}; unit {unit!r} is not one of {units}")
+        raise UnitError(wrong_unit)
     return _clean(number * scale)
 
 
