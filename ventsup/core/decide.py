@@ -100,6 +100,8 @@ def decide(
     caps = _min_caps(ctx, all_limits)
     comfort_moves: set[str] = set()
     held: dict[str, str] = {}
+    skipped: dict[str, float] = {}
+    forced: set[str] = set()
 
     if alarm.latched:
         targets: Targets = dict(alarm.targets)
@@ -109,18 +111,35 @@ def decide(
     else:
         if fault.pin is not None:
             wanted = dict(fault.pin)
-            caps = _min_caps(ctx, prot.limits)  # the pin replaces layers 4-7
+            caps = _min_caps(ctx, limits)  # the pin replaces layers 4-7, not 2-3
         elif active_override is not None:
             wanted = dict(active_override.targets)
             caps = _min_caps(ctx, limits)  # an override may open beyond the schedule
         else:
-            wanted = _comfort_targets(ctx, wants.fraction, caps, held, comfort_moves)
+            wanted = _comfort_targets(
+                ctx, wants.fraction, caps, held, skipped, comfort_moves, forced
+            )
         targets = {n: min(wanted[n], caps[n]) for n in ctx.openings}
         if fault.pin is None and active_override is None:
-            # what comfort asked for before any cap, to tell which cap decided
-            wanted = {n: wanted[n] if n in held else wants.fraction for n in ctx.openings}
+            # What comfort and actuator care would have commanded without the caps, to
+            # tell which cap decided: the kept position where a cap moved an opening.
+            wanted = {
+                n: _position(ctx, n)
+                if n in forced
+                else (wanted[n] if n in held else wants.fraction)
+                for n in ctx.openings
+            }
         mode, layer, cause, reason = _explain(
-            ctx, wanted, targets, limits, sched.security, fault, active_override, wants, held
+            ctx,
+            wanted,
+            targets,
+            limits,
+            sched.security,
+            fault,
+            active_override,
+            wants,
+            held,
+            skipped,
         )
 
     decision = Decision(
@@ -169,25 +188,45 @@ def _comfort_targets(
     fraction: float,
     caps: dict[str, float],
     held: dict[str, str],
+    skipped: dict[str, float],
     comfort_moves: set[str],
+    forced: set[str],
 ) -> dict[str, float]:
-    """Comfort wants ``fraction`` everywhere; caps act at once, actuator care smooths the rest."""
+    """Comfort wants ``fraction`` everywhere; caps act at once, actuator care smooths the rest.
+
+    Where a cap falls below an opening's position, the cap moves the opening at
+    once: to the cap when comfort wants at least that much, else to what comfort
+    wants if actuator care allows that move (then it is a comfort move), else to
+    the cap. The openings a cap moved are added to ``forced``; their moves are
+    not comfort moves. The returned targets are before caps (:func:`decide`
+    applies them).
+    """
     wanted: dict[str, float] = {}
     careful: dict[str, float] = {}
     for name in ctx.openings:
-        capped = min(fraction, caps[name])
         current = ctx.state.opening(name).target
-        if current is not None and caps[name] < current:
-            wanted[name] = capped  # a higher layer closes or caps: at once
+        if current is not None and caps[name] < current and fraction >= caps[name]:
+            wanted[name] = caps[name]  # a higher layer closes or caps: at once
+            forced.add(name)
         else:
-            careful[name] = capped
+            careful[name] = min(fraction, caps[name])
     care = actuator.apply(ctx, careful)
-    wanted.update(care.targets)
-    held.update(care.held)
     for name, target in care.targets.items():
-        if target != ctx.state.opening(name).target and ctx.state.opening(name).target is not None:
+        if target > caps[name]:
+            forced.add(name)  # care would keep it above a new cap: the cap moves it at once
+    wanted.update(care.targets)
+    held.update((n, why) for n, why in care.held.items() if n not in forced)
+    skipped.update((n, want) for n, want in care.skipped.items() if n not in forced)
+    for name, target in care.targets.items():
+        current = ctx.state.opening(name).target
+        if name not in forced and current is not None and target != current:
             comfort_moves.add(name)
     return wanted
+
+
+def _position(ctx: Context, name: str) -> float:
+    """The last commanded position of an opening (0 when never commanded or released)."""
+    return ctx.state.opening(name).target or 0.0
 
 
 def _binding(limit: Limit, wanted: dict[str, float], targets: Targets) -> bool:
@@ -209,23 +248,46 @@ def _explain(
     active_override: OverrideState | None,
     wants: comfort.ComfortResult,
     held: dict[str, str],
+    skipped: dict[str, float],
 ) -> tuple[Mode, Layer, Cause, str]:
     closed = all(v == 0.0 for v in targets.values())
     for limit in sorted(limits, key=lambda lim: lim.layer):
         if _binding(limit, wanted, targets):
             mode = Mode.PROTECTED if limit.layer == Layer.PROTECTION else Mode.FAULT
-            return mode, limit.layer, limit.cause, f"{'closed' if closed else 'capped'}: {limit.reason}"
+            return (
+                mode,
+                limit.layer,
+                limit.cause,
+                f"{'closed' if closed else 'capped'}: {limit.reason}",
+            )
     if fault.pin is not None:
         return Mode.FAULT, Layer.FAULT, Cause.FAULT, f"fault: {fault.pin_reason}"
     if active_override is not None:
         ov = active_override
         what = {"open": "opened", "close": "closed", "hold": "held"}[ov.action]
         reason = f"{what} by operator {ov.who} until {ctx.clock(ov.until)}"
-        return Mode.OVERRIDE, Layer.OVERRIDE, Cause.OPERATOR, reason + (f": {ov.why}" if ov.why else "")
-    if security is not None and (
-        _binding(security, wanted, targets) or wants.mode in (Mode.IDLE, Mode.UNOCCUPIED)
+        return (
+            Mode.OVERRIDE,
+            Layer.OVERRIDE,
+            Cause.OPERATOR,
+            reason + (f": {ov.why}" if ov.why else ""),
+        )
+    still_open = any(v is not None and v > 0.0 for v in targets.values())
+    limiting = security is not None and any(cap < 1.0 for cap in security.caps.values())
+    if (
+        security is not None
+        and limiting
+        and (
+            wants.mode in (Mode.IDLE, Mode.UNOCCUPIED)
+            or (_binding(security, wanted, targets) and not still_open)
+        )
     ):
-        return Mode.SECURED, Layer.SCHEDULE, Cause.SCHEDULE, f"{'closed' if closed else 'capped'}: {security.reason}"
+        return (
+            Mode.SECURED,
+            Layer.SCHEDULE,
+            Cause.SCHEDULE,
+            f"{'closed' if closed else 'capped'}: {security.reason}",
+        )
     if held:
         groups: dict[str, list[str]] = {}
         for name, why in sorted(held.items()):
@@ -238,7 +300,15 @@ def _explain(
             f"held: {positions}; without the hold: {wants.reason}",
         )
     layer = Layer.SCHEDULE if wants.mode == Mode.UNOCCUPIED else Layer.COMFORT
-    return wants.mode, layer, wants.cause, wants.reason
+    reason = wants.reason
+    if security is not None and _binding(security, wanted, targets):
+        capped = sorted(n for n, c in security.caps.items() if c < wanted.get(n, 0.0))
+        reason += f"; {', '.join(capped)} limited by the {security.reason}"
+    kept = {n: targets[n] for n in skipped}
+    if kept:
+        positions = ", ".join(f"{n} kept at {ctx.fmt(v, 'fraction')}" for n, v in kept.items())
+        reason += f" ({positions}: step below the minimum {ctx.fmt(ctx.rules.actuator.min_step, 'fraction')})"
+    return wants.mode, layer, wants.cause, reason
 
 
 def _released_position(ctx: Context, name: str) -> float | None:
@@ -270,7 +340,9 @@ def _open_area(ctx: Context, targets: Targets) -> float:
     return round(area, 9)
 
 
-def _facts(ctx: Context, comfort_facts: dict[str, float | str | bool | None]) -> dict[str, float | str | bool | None]:
+def _facts(
+    ctx: Context, comfort_facts: dict[str, float | str | bool | None]
+) -> dict[str, float | str | bool | None]:
     facts = dict(comfort_facts)
     for name in ("wind_speed", "wind_direction", "rain"):
         reading = ctx.input(name)

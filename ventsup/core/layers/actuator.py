@@ -12,17 +12,22 @@ from dataclasses import dataclass
 
 from ventsup.core.context import Context
 
-__all__ = ["CareResult", "HOUR", "apply"]
+__all__ = ["HOUR", "CareResult", "apply", "recent_moves"]
 
 HOUR = 3600.0
 
 
 @dataclass(frozen=True)
 class CareResult:
-    """Targets after actuator care, and why any opening was held."""
+    """Targets after actuator care, why any opening was held, and the small steps skipped.
+
+    A skipped small step is not a hold: the opening is already within the
+    minimum step of what comfort wants.
+    """
 
     targets: dict[str, float]
     held: dict[str, str]
+    skipped: dict[str, float]
 
 
 def recent_moves(moves: tuple[float, ...], t: float) -> tuple[float, ...]:
@@ -36,21 +41,29 @@ def apply(ctx: Context, wanted: dict[str, float]) -> CareResult:
     t = ctx.t
     targets: dict[str, float] = {}
     held: dict[str, str] = {}
+    skipped: dict[str, float] = {}
     for name, want in wanted.items():
         prev = ctx.state.opening(name)
         current = prev.target
         if current is None or want == current:
             targets[name] = want
             continue
+        # fractions are kept to 1e-9: a step of exactly min_step (0.7 - 0.6) is not below it
+        if round(abs(want - current), 9) < rules.min_step and want not in (0.0, 1.0):
+            targets[name] = current
+            skipped[name] = want
+            continue
         why = None
-        if abs(want - current) < rules.min_step and want not in (0.0, 1.0):
-            why = f"step {abs(want - current) * 100:.0f} % below the minimum step"
-        elif want == 0.0 and prev.opened_at is not None and t - prev.opened_at < rules.min_open_time:
+        if want == 0.0 and prev.opened_at is not None and t - prev.opened_at < rules.min_open_time:
             why = (
                 f"open since {ctx.clock(prev.opened_at)}, minimum time open "
                 f"{ctx.fmt(rules.min_open_time, 'duration')}"
             )
-        elif current == 0.0 and prev.closed_at is not None and t - prev.closed_at < rules.min_closed_time:
+        elif (
+            current == 0.0
+            and prev.closed_at is not None
+            and t - prev.closed_at < rules.min_closed_time
+        ):
             why = (
                 f"closed since {ctx.clock(prev.closed_at)}, minimum time closed "
                 f"{ctx.fmt(rules.min_closed_time, 'duration')}"
@@ -62,4 +75,4 @@ def apply(ctx: Context, wanted: dict[str, float]) -> CareResult:
         else:
             targets[name] = current
             held[name] = why
-    return CareResult(targets, held)
+    return CareResult(targets, held, skipped)

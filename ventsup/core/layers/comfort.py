@@ -94,7 +94,9 @@ def evaluate(ctx: Context, occupied: bool, flush_hours: bool) -> ComfortResult:
         "heating": heating,
         "occupied": occupied,
     }
-    T = lambda v: ctx.fmt(v, "temperature")  # noqa: E731
+
+    def T(value: float | None) -> str:
+        return ctx.fmt(value, "temperature")
 
     # --- free cooling: demand latch (hysteresis) and permission
     cooling = False
@@ -140,24 +142,34 @@ def evaluate(ctx: Context, occupied: bool, flush_hours: bool) -> ComfortResult:
                 f"(opens at {T(fc.open_above)}, fully open at {T(fc.full_open_at)}), "
                 f"outdoor {T(t_out)}"
             )
-            return ComfortResult(fraction, Mode.FREE_COOLING, Cause.COMFORT, reason, **latches, facts=facts)
+            return ComfortResult(
+                fraction, Mode.FREE_COOLING, Cause.COMFORT, reason, **latches, facts=facts
+            )
         if fraction == nf_fraction:
             reason = (
                 f"night flush: indoor {T(t_in)}, outdoor {T(t_out)}; stops at {T(nf.stop_below)}"
             )
-            return ComfortResult(fraction, Mode.NIGHT_FLUSH, Cause.COMFORT, reason, **latches, facts=facts)
+            return ComfortResult(
+                fraction, Mode.NIGHT_FLUSH, Cause.COMFORT, reason, **latches, facts=facts
+            )
         reason = (
             f"air quality: CO2 {ctx.fmt(co2, 'concentration')} (opens at "
             f"{ctx.fmt(co2r.open_above, 'concentration')}), minimum opening "
             f"{ctx.fmt(co2r.position, 'fraction')}"
         )
-        return ComfortResult(fraction, Mode.AIR_QUALITY, Cause.COMFORT, reason, **latches, facts=facts)
+        return ComfortResult(
+            fraction, Mode.AIR_QUALITY, Cause.COMFORT, reason, **latches, facts=facts
+        )
 
     # Nothing opens: say why, most useful first.
     heating_blocks = heating is not False and rules.interlock.block_cooling_while_heating
     if cooling and fc_block and heating_blocks and fc_block.startswith("the plant"):
         return ComfortResult(0.0, Mode.INTERLOCK, Cause.INTERLOCK,
                              f"closed: indoor {T(t_in)} is warm, but {fc_block}", **latches, facts=facts)  # fmt: skip
+    if flush and nf_block and heating_blocks and nf_block.startswith("the plant"):
+        return ComfortResult(0.0, Mode.INTERLOCK, Cause.INTERLOCK,
+                             f"closed: night flush wanted (indoor {T(t_in)}), but {nf_block}",
+                             **latches, facts=facts)  # fmt: skip
     if cooling and fc_block:
         reason = f"closed: indoor {T(t_in)} is warm, but {fc_block}"
     elif flush and nf_block:
@@ -189,7 +201,10 @@ def _cooling_blocks(
     block_while_heating: bool,
 ) -> str | None:
     """Why the outdoor air may not be used for cooling now, or None when it may."""
-    T = lambda v: ctx.fmt(v, "temperature")  # noqa: E731
+
+    def T(value: float | None) -> str:
+        return ctx.fmt(value, "temperature")
+
     if heating is None and block_while_heating:
         return "the plant's heating status is unknown"
     if heating and block_while_heating:

@@ -21,6 +21,10 @@ def apply_request(
     ``override.max_duration``.
     """
     openings = config.zones[zone].openings
+    if request.action not in ("open", "close", "hold", "auto"):
+        raise ValueError(
+            f"override action must be 'open', 'close', 'hold' or 'auto', got {request.action!r}"
+        )
     if request.action == "auto":
         if state.override is None:
             return state, f"override auto by {request.who}: nothing to end"
@@ -37,13 +41,14 @@ def apply_request(
         targets = dict.fromkeys(openings, 0.0)
     else:
         targets = {
-            n: request.position if request.position is not None else (state.opening(n).target or 0.0)
+            n: request.position
+            if request.position is not None
+            else (state.opening(n).target or 0.0)
             for n in openings
         }
     override = OverrideState(request.action, t, t + duration, request.who, request.why, targets)
-    event = (
-        f"override {request.action} by {request.who} for {duration / 60:.0f} min"
-        + (f": {request.why}" if request.why else "")
+    event = f"override {request.action} by {request.who} for {duration / 60:.0f} min" + (
+        f": {request.why}" if request.why else ""
     )
     return _replace(state, override), event
 

@@ -61,7 +61,7 @@ def _rain(ctx: Context, limits: list[Limit]) -> tuple[float | None, float | None
     wet = bool(reading.value) if is_known else True
     last_wet = t if wet else prev.rain_last_wet
     in_force = wet or (last_wet is not None and t - last_wet < delay)
-    since = (prev.rain_since or t) if in_force else None
+    since = (t if prev.rain_since is None else prev.rain_since) if in_force else None
     if not in_force:
         return last_wet, None
     caps = {n: o.rain_position for n, o in ctx.openings.items()}
@@ -85,7 +85,9 @@ def _rain(ctx: Context, limits: list[Limit]) -> tuple[float | None, float | None
     return last_wet, since
 
 
-def _latch(prev: WindLatch, speed: float, limit: float, ratio: float, hold: float, t: float) -> WindLatch:
+def _latch(
+    prev: WindLatch, speed: float, limit: float, ratio: float, hold: float, t: float
+) -> WindLatch:
     if speed > limit:
         return WindLatch(True, t)
     if prev.active and speed > ratio * limit:
@@ -114,14 +116,21 @@ def _wind(ctx: Context, limits: list[Limit]) -> dict[str, WindLatch]:
     }
     latches = {
         key: _latch(
-            ctx.state.wind.get(key, WindLatch()), speed, limit, rules.reopen_ratio, rules.hold, ctx.t
+            ctx.state.wind.get(key, WindLatch()),
+            speed,
+            limit,
+            rules.reopen_ratio,
+            rules.hold,
+            ctx.t,
         )
         for key, limit in thresholds.items()
     }
     caps: dict[str, float] = {}
     worst_key = ""
     for name, opening in ctx.openings.items():
-        windward = direction is None or angle_between(opening.facing, direction) <= rules.windward_angle
+        windward = (
+            direction is None or angle_between(opening.facing, direction) <= rules.windward_angle
+        )
         prefix = "windward_" if windward else ""
         if latches[prefix + "close"].active:
             caps[name] = 0.0

@@ -47,7 +47,12 @@ def evaluate(ctx: Context) -> AlarmResult:
         latched, clear_since = True, None
     elif prev.alarm_latched:
         since = prev.alarm_since
-        clear_since = (prev.alarm_clear_since or t) if all_clear else None
+        if not all_clear:
+            clear_since = None
+        elif prev.alarm_clear_since is not None:
+            clear_since = prev.alarm_clear_since
+        else:
+            clear_since = t
         latched = clear_since is None or t - clear_since < hold
         if not latched:
             events.append("alarm latch released")

@@ -55,9 +55,7 @@ def evaluate(ctx: Context) -> ScheduleResult:
     security = None
     if _any(rules.schedule.security, local):
         caps = {n: o.secure_position for n, o in ctx.openings.items()}
-        limited = ", ".join(
-            f"{n} {ctx.fmt(c, 'fraction')}" for n, c in caps.items() if c < 1.0
-        )
+        limited = ", ".join(f"{n} {ctx.fmt(c, 'fraction')}" for n, c in caps.items() if c < 1.0)
         security = Limit(
             Layer.SCHEDULE, Cause.SCHEDULE, caps, f"security window ({limited or 'no limit'})"
         )
