@@ -33,7 +33,8 @@ References
 
 from __future__ import annotations
 
-from typing import overload
+import math
+from typing import Any, overload
 
 import numpy as np
 import numpy.typing as npt
@@ -100,48 +101,95 @@ def _require_pressure(pressure: FloatArray) -> None:
         raise ValueError(f"pressure: got {_first(pressure, bad)} Pa, expected a value > 0 Pa")
 
 
+# ASHRAE 2017 ch. 1 eq. 5 (over ice) and eq. 6 (over water):
+# ln p_ws = C1/T + C2 + C3 T + C4 T^2 + C5 T^3 + C6 T^4 + C7 ln T, T in K, p_ws in Pa.
+_OVER_ICE = (
+    -5.6745359e03,
+    6.3925247,
+    -9.6778430e-03,
+    6.2215701e-07,
+    2.0747825e-09,
+    -9.4840240e-13,
+    4.1635019,
+)
+_OVER_WATER = (
+    -5.8002206e03,
+    1.3914993,
+    -4.8640239e-02,
+    4.1764768e-05,
+    -1.4452093e-08,
+    0.0,
+    6.5459673,
+)
+
+
+def _ln_pws(kelvin: Any, c: tuple[float, ...], log: Any) -> Any:
+    """ln p_ws for floats (log=math.log) or arrays (log=np.log)."""
+    return (
+        c[0] / kelvin
+        + c[1]
+        + c[2] * kelvin
+        + c[3] * kelvin**2
+        + c[4] * kelvin**3
+        + c[5] * kelvin**4
+        + c[6] * log(kelvin)
+    )
+
+
+def _ln_pws_slope(kelvin: Any, c: tuple[float, ...]) -> Any:
+    """d(ln p_ws)/dT [1/K] for floats or arrays."""
+    return (
+        -c[0] / kelvin**2
+        + c[2]
+        + 2.0 * c[3] * kelvin
+        + 3.0 * c[4] * kelvin**2
+        + 4.0 * c[5] * kelvin**3
+        + c[6] / kelvin
+    )
+
+
 def _log_saturation_vapour_pressure(temp_air: FloatArray) -> FloatArray:
     """Natural log of the saturation vapour pressure [ln Pa], ASHRAE eq. 5 and 6."""
     kelvin = temp_air + _ZERO_CELSIUS
-    over_ice = (
-        -5.6745359e03 / kelvin
-        + 6.3925247
-        - 9.6778430e-03 * kelvin
-        + 6.2215701e-07 * kelvin**2
-        + 2.0747825e-09 * kelvin**3
-        - 9.4840240e-13 * kelvin**4
-        + 4.1635019 * np.log(kelvin)
-    )
-    over_water = (
-        -5.8002206e03 / kelvin
-        + 1.3914993
-        - 4.8640239e-02 * kelvin
-        + 4.1764768e-05 * kelvin**2
-        - 1.4452093e-08 * kelvin**3
-        + 6.5459673 * np.log(kelvin)
-    )
+    over_ice = _ln_pws(kelvin, _OVER_ICE, np.log)
+    over_water = _ln_pws(kelvin, _OVER_WATER, np.log)
     return np.asarray(np.where(temp_air <= _TRIPLE_POINT, over_ice, over_water), dtype=np.float64)
 
 
 def _log_saturation_vapour_pressure_slope(temp_air: FloatArray) -> FloatArray:
     """Derivative of :func:`_log_saturation_vapour_pressure` [1/K]."""
     kelvin = temp_air + _ZERO_CELSIUS
-    over_ice = (
-        5.6745359e03 / kelvin**2
-        - 9.6778430e-03
-        + 2.0 * 6.2215701e-07 * kelvin
-        + 3.0 * 2.0747825e-09 * kelvin**2
-        - 4.0 * 9.4840240e-13 * kelvin**3
-        + 4.1635019 / kelvin
-    )
-    over_water = (
-        5.8002206e03 / kelvin**2
-        - 4.8640239e-02
-        + 2.0 * 4.1764768e-05 * kelvin
-        - 3.0 * 1.4452093e-08 * kelvin**2
-        + 6.5459673 / kelvin
-    )
+    over_ice = _ln_pws_slope(kelvin, _OVER_ICE)
+    over_water = _ln_pws_slope(kelvin, _OVER_WATER)
     return np.asarray(np.where(temp_air <= _TRIPLE_POINT, over_ice, over_water), dtype=np.float64)
+
+
+def _dew_point_scalar(temp_air: float, relative_humidity: float) -> float:
+    """The same Newton solution as the array path, in plain floats.
+
+    The decision core calls this once per zone and evaluation; numpy's
+    per-call overhead on 0-d arrays made it most of the cost of a decision.
+    """
+    if not -100.0 <= temp_air <= 200.0:
+        _require_temperature_range("temp_air", _array(temp_air))
+    if not 0.0 < relative_humidity <= 1.0:
+        _require_relative_humidity(_array(relative_humidity))
+    coefficients = _OVER_ICE if temp_air <= _TRIPLE_POINT else _OVER_WATER
+    log_target = math.log(relative_humidity) + _ln_pws(
+        temp_air + _ZERO_CELSIUS, coefficients, math.log
+    )
+    log_ratio = log_target - math.log(611.2)
+    temp = min(max(243.12 * log_ratio / (17.62 - log_ratio), _TEMP_MIN), _TEMP_MAX)
+    for _ in range(_DEW_POINT_MAX_ITERATIONS):
+        c = _OVER_ICE if temp <= _TRIPLE_POINT else _OVER_WATER
+        kelvin = temp + _ZERO_CELSIUS
+        step = (_ln_pws(kelvin, c, math.log) - log_target) / _ln_pws_slope(kelvin, c)
+        temp = min(max(temp - step, _TEMP_MIN), _TEMP_MAX)
+        if abs(step) <= _DEW_POINT_TOLERANCE:
+            return min(temp, temp_air)
+    raise ArithmeticError(  # pragma: no cover - the iteration converges in < 10 steps
+        f"dew point did not converge in {_DEW_POINT_MAX_ITERATIONS} iterations"
+    )
 
 
 @overload
@@ -299,6 +347,8 @@ def dew_point_from_relative_humidity(
     >>> round(dew_point_from_relative_humidity(25.0, 0.5), 3)
     13.864
     """
+    if isinstance(temp_air, float | int) and isinstance(relative_humidity, float | int):
+        return _dew_point_scalar(float(temp_air), float(relative_humidity))
     temp = _array(temp_air)
     humidity = _array(relative_humidity)
     _require_relative_humidity(humidity)
