@@ -489,7 +489,7 @@ def test_yaml_anchors_and_merge_keys_keep_lines() -> None:
         load_config_text(text, "site.yaml")
     assert str(caught.value).splitlines() == [
         "site.yaml:8 window: unknown key 'window'; expected one of site, points, outdoor, "
-        "zones, rules, override",
+        "zones, rules, override, mqtt, prefix, controller",
         "site.yaml:16 zones.hall.openings.east.area: got '-1 m2', expected a positive area "
         "such as '4 m2' or '40 ft2'",
     ]

@@ -24,6 +24,7 @@ from ventsup.config.units import describe_quantity
 
 __all__ = [
     "POINT_FIELDS",
+    "SECRET_KEYS",
     "Resolved",
     "at_least_one",
     "did_you_mean",
@@ -89,6 +90,32 @@ _FIELD_WORDS: dict[tuple[type[BaseModel], str], str] = {
     (model.Schedule, "occupied"): "a list of periods such as ['Mon-Fri 07:00-18:00']",
     (model.Schedule, "security"): "a list of periods such as ['Mon-Sun 22:00-06:00']",
     (model.NightFlush, "hours"): "a list of periods such as ['22:00-06:00']",
+    (model.Mqtt, "host"): "the broker's host name or address, such as 'broker.site.local' or "
+    "'127.0.0.1'",
+    (model.Mqtt, "port"): "a TCP port number from 1 to 65535, such as 1883 or 8883",
+    (model.Mqtt, "client_id"): "an MQTT client id such as 'ventsup-larkfield'",
+    (model.Mqtt, "username"): "the user name the controller logs in with",
+    (model.Mqtt, "password_file"): (
+        "the path of a file that holds the password, such as '/etc/ventsup/mqtt-password'"
+    ),
+    (model.Mqtt, "password_env"): (
+        "the name of an environment variable that holds the password, such as "
+        "'VENTSUP_MQTT_PASSWORD'"
+    ),
+    (model.Tls, "ca_file"): "the path of a CA certificate file (PEM), such as 'ca.crt'",
+    (model.Tls, "cert_file"): "the path of a client certificate file (PEM)",
+    (model.Tls, "key_file"): "the path of the client certificate's key file (PEM)",
+    (model.Controller, "ledger"): "the path of the ledger file, such as 'var/ventsup.db'",
+}
+
+# Keys that must never be written in a site file, and what to write instead. The
+# loader reports them as unknown keys with this advice, never echoing the value.
+SECRET_KEYS: dict[tuple[type[BaseModel], str], str] = {
+    (model.Mqtt, "password"): (
+        "a password never goes in the site file; put it in a file only the service can "
+        "read and name that file with password_file, or pass it in an environment "
+        "variable named by password_env"
+    ),
 }
 
 _PERIOD_WORDS = "a period such as 'Mon-Fri 07:00-18:00', 'Sat 09:00-13:00' or '22:00-06:00'"

@@ -11,7 +11,10 @@ fit together:
   outdoor band not empty, wind cap below wind close, ...);
 - a dew point limit has an outdoor humidity or dew point point to work with;
 - no two points read the same topic and JSON path;
-- the default override is not longer than the longest allowed.
+- the default override is not longer than the longest allowed;
+- the MQTT settings fit together (one password source, a user name with a
+  password, a key file with a certificate, reconnect delays in order), and
+  opening command topics are plain topic names.
 """
 
 from __future__ import annotations
@@ -50,6 +53,8 @@ def cross_check(config: SiteConfig, lines: SourceMap | None = None) -> list[Conf
         checker.dew_point(name, rules)
     checker.duplicate_sources()
     checker.override()
+    checker.mqtt()
+    checker.command_topics()
     return sorted(checker.problems, key=ConfigProblem.sort_key)
 
 
@@ -283,6 +288,55 @@ class _Checker:
         else:
             message = f"got {longest_text}, expected at least default_duration ({default_text})"
             self.add(longest, message)
+
+    # ------------------------------------------------------------------ daemon
+
+    def mqtt(self) -> None:
+        mqtt = self.config.mqtt
+        base: KeyPath = ("mqtt",)
+        if mqtt.password_file is not None and mqtt.password_env is not None:
+            self.add(
+                (*base, "password_env"),
+                f"got {mqtt.password_env!r} as well as password_file "
+                f"({mqtt.password_file!r}), expected one of them: the password comes from a "
+                "file or from an environment variable",
+            )
+        source = "password_file" if mqtt.password_file is not None else "password_env"
+        if mqtt.username is None and (mqtt.password_file or mqtt.password_env) is not None:
+            self.add(
+                (*base, source),
+                "a password needs a user name, expected 'username' under 'mqtt' as well",
+            )
+        tls = mqtt.tls
+        if tls is not None and tls.key_file is not None and tls.cert_file is None:
+            self.add(
+                (*base, "tls", "key_file"),
+                f"got {tls.key_file!r} without cert_file, expected the client certificate "
+                "in cert_file beside its key",
+            )
+        if mqtt.reconnect_min > mqtt.reconnect_max:
+            low, high = (*base, "reconnect_min"), (*base, "reconnect_max")
+            why = "the delay between attempts doubles from reconnect_min up to reconnect_max"
+            low_text = self.show(low, mqtt, "reconnect_min")
+            high_text = self.show(high, mqtt, "reconnect_max")
+            if self.given(low):
+                self.add(
+                    low, f"got {low_text}, expected at or below reconnect_max ({high_text}): {why}"
+                )
+            else:
+                self.add(
+                    high, f"got {high_text}, expected at or above reconnect_min ({low_text}): {why}"
+                )
+
+    def command_topics(self) -> None:
+        for zone_name, zone in self.config.zones.items():
+            for opening_name, opening in zone.openings.items():
+                topic = opening.command_topic
+                if topic is not None and ("+" in topic or "#" in topic):
+                    self.add(
+                        ("zones", zone_name, "openings", opening_name, "command_topic"),
+                        f"got {topic!r}, expected a topic name without the wildcards '+' or '#'",
+                    )
 
 
 def _listing(kind: PointKind, names: list[str]) -> str:

@@ -167,6 +167,8 @@ def _problem(error: ErrorDetails, data: dict[str, Any], source: SourceMap) -> Co
 def _unknown_key(resolved: _schema.Resolved) -> str:
     key = resolved.path[-1]
     message = f"unknown key {show_value(key)}"
+    if resolved.parent is not None and (resolved.parent, key) in _schema.SECRET_KEYS:
+        return f"{message}: {_schema.SECRET_KEYS[(resolved.parent, key)]}"
     if isinstance(key, bool):
         message += " (YAML reads an unquoted yes, no, on or off as true or false)"
     parent = resolved.parent

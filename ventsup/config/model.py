@@ -16,6 +16,7 @@ once.
 from __future__ import annotations
 
 import re
+import unicodedata
 import zoneinfo
 from enum import StrEnum
 from typing import Annotated, Any, Literal
@@ -37,9 +38,11 @@ __all__ = [
     "Co2Rules",
     "Cold",
     "Comfort",
+    "Controller",
     "FreeCooling",
     "Interlock",
     "Location",
+    "Mqtt",
     "NightFlush",
     "Opening",
     "Outdoor",
@@ -53,8 +56,10 @@ __all__ = [
     "Site",
     "SiteConfig",
     "TemperatureInput",
+    "Tls",
     "Wind",
     "Zone",
+    "site_slug",
 ]
 
 
@@ -78,6 +83,7 @@ Concentration = Annotated[float, _quantity("concentration"), Field(ge=0)]
 Fraction = Annotated[float, _quantity("fraction"), Field(ge=0, le=1)]
 Angle = Annotated[float, _quantity("angle"), Field(ge=0, le=360)]
 Name = Annotated[str, Field(pattern=r"^[A-Za-z][A-Za-z0-9_-]*$")]
+PositiveDuration = Annotated[Duration, Field(gt=0)]
 
 
 class _Frozen(BaseModel):
@@ -531,8 +537,131 @@ class Override(_Frozen):
     max_duration: Duration = 7 * 86400.0
 
 
+# --------------------------------------------------------------------------- the daemon
+
+
+def site_slug(name: str) -> str:
+    """The site's name as a topic- and file-safe word: ``"Larkfield Library"`` -> ``"larkfield-library"``.
+
+    >>> site_slug("Quarry Lane Commons (east)")
+    'quarry-lane-commons-east'
+    """
+    ascii_name = unicodedata.normalize("NFKD", name).encode("ascii", "ignore").decode("ascii")
+    slug = re.sub(r"[^a-z0-9]+", "-", ascii_name.lower()).strip("-")
+    return slug or "site"
+
+
+def _protocol_word(value: Any) -> Any:
+    """YAML reads ``protocol: 5`` as a number; the setting is the word ``"5"``."""
+    if isinstance(value, int | float) and not isinstance(value, bool) and value == 5:
+        return "5"
+    return value
+
+
+class Tls(_Frozen):
+    """TLS to the broker.
+
+    ``ca_file`` is the CA certificate (PEM) that signed the broker's
+    certificate (none: the system's trusted CAs); ``cert_file`` and
+    ``key_file`` a client certificate and its key, for brokers that require
+    one. ``insecure: true`` skips the check that the certificate names the
+    host, for commissioning only. Relative paths are read from the config
+    file's folder.
+    """
+
+    ca_file: str | None = Field(default=None, min_length=1)
+    cert_file: str | None = Field(default=None, min_length=1)
+    key_file: str | None = Field(default=None, min_length=1)
+    insecure: bool = False
+
+
+class Mqtt(_Frozen):
+    """How the daemon reaches the site's MQTT broker.
+
+    ``port`` defaults to 1883, or 8883 with ``tls``. ``protocol`` is ``"5"``
+    (MQTT 5, the default) or ``"3.1.1"``. ``client_id`` defaults to
+    ``ventsup-<site slug>``: keep it stable and unique on the broker. The
+    password is never written here: ``password_file`` names a file holding it
+    (relative to the config file's folder), ``password_env`` an environment
+    variable. Lost connections are retried with a delay doubling from
+    ``reconnect_min`` to ``reconnect_max``; at start-up the broker must answer
+    within ``connect_timeout``.
+    """
+
+    host: str = Field(default="localhost", min_length=1)
+    port: int | None = Field(default=None, ge=1, le=65535)
+    protocol: Annotated[Literal["5", "3.1.1"], BeforeValidator(_protocol_word)] = "5"
+    client_id: str | None = Field(default=None, min_length=1, max_length=128)
+    keepalive: Annotated[Duration, Field(ge=5, le=65535)] = 60.0
+    tls: Tls | None = None
+    username: str | None = Field(default=None, min_length=1)
+    password_file: str | None = Field(default=None, min_length=1)
+    password_env: str | None = Field(default=None, min_length=1)
+    reconnect_min: PositiveDuration = 1.0
+    reconnect_max: PositiveDuration = 60.0
+    connect_timeout: PositiveDuration = 10.0
+
+    @property
+    def effective_port(self) -> int:
+        """The port given, else 8883 with TLS and 1883 without."""
+        if self.port is not None:
+            return self.port
+        return 8883 if self.tls is not None else 1883
+
+
+class Controller(_Frozen):
+    """How the daemon runs.
+
+    Every zone is evaluated each ``tick`` (and at once when a smoke alarm,
+    rain or wind point changes); commands go out when a target changes and
+    again every ``reassert``, at ``command_qos``. ``ledger`` is the SQLite file
+    (default ``var/ventsup-<site slug>.db``; relative paths are read from the
+    config file's folder), keeping records for ``retention``. Records are
+    written at least every ``record_interval``; zone states whose targets,
+    override or alarm latch changed are saved at once, other state changes
+    (timers) within ``state_save_interval``. ``heartbeat`` is the interval of
+    the heartbeat message; ``log_format`` ``text`` or ``json`` (one object a
+    line). ``startup_settle`` is the longest the first evaluation waits for
+    the broker's retained values after connecting.
+    """
+
+    tick: PositiveDuration = 60.0
+    reassert: PositiveDuration = 900.0
+    command_qos: Literal[0, 1, 2] = 1
+    ledger: str | None = Field(default=None, min_length=1)
+    retention: PositiveDuration = 400 * 86400.0
+    record_interval: PositiveDuration = 2.0
+    state_save_interval: PositiveDuration = 10.0
+    heartbeat: PositiveDuration = 60.0
+    log_format: Literal["text", "json"] = "text"
+    startup_settle: Duration = 2.0
+
+
+def _prefix(value: Any) -> Any:
+    if not isinstance(value, str):
+        return value
+    if (
+        not value
+        or "+" in value
+        or "#" in value
+        or value.startswith(("/", "$"))
+        or value.endswith("/")
+        or "//" in value
+    ):
+        raise ValueError(
+            "expected a topic prefix such as 'ventsup/larkfield': no wildcards '+' or '#', "
+            "no empty levels, not starting with '/' or '$', not ending with '/'"
+        )
+    return value
+
+
 class SiteConfig(_Frozen):
-    """A whole site: what the loader returns and what every part of ventsup reads."""
+    """A whole site: what the loader returns and what every part of ventsup reads.
+
+    ``mqtt``, ``prefix`` (the controller's own topics, default
+    ``ventsup/<site slug>``) and ``controller`` are for the daemon; every
+    other command ignores them.
+    """
 
     site: Site
     points: dict[Name, Point] = Field(min_length=1)
@@ -540,7 +669,25 @@ class SiteConfig(_Frozen):
     zones: dict[Name, Zone] = Field(min_length=1)
     rules: dict[Name, RuleSet] = Field(min_length=1)
     override: Override = Override()
+    mqtt: Mqtt = Mqtt()
+    prefix: Annotated[str | None, BeforeValidator(_prefix)] = None
+    controller: Controller = Controller()
 
     def rules_for(self, zone: str) -> RuleSet:
         """The rule set a zone refers to."""
         return self.rules[self.zones[zone].rules]
+
+    @property
+    def slug(self) -> str:
+        """The site's name as a topic- and file-safe word (:func:`site_slug`)."""
+        return site_slug(self.site.name)
+
+    @property
+    def topic_prefix(self) -> str:
+        """The controller's own topics live under this: ``prefix`` or ``ventsup/<slug>``."""
+        return self.prefix if self.prefix is not None else f"ventsup/{self.slug}"
+
+    @property
+    def client_id(self) -> str:
+        """The daemon's MQTT client id: ``mqtt.client_id`` or ``ventsup-<slug>``."""
+        return self.mqtt.client_id if self.mqtt.client_id is not None else f"ventsup-{self.slug}"

@@ -175,7 +175,7 @@ def _dew_point_scalar(temp_air: float, relative_humidity: float) -> float:
     if not 0.0 < relative_humidity <= 1.0:
         _require_relative_humidity(_array(relative_humidity))
     coefficients = _OVER_ICE if temp_air <= _TRIPLE_POINT else _OVER_WATER
-    log_target = math.log(relative_humidity) + _ln_pws(
+    log_target: float = math.log(relative_humidity) + _ln_pws(
         temp_air + _ZERO_CELSIUS, coefficients, math.log
     )
     log_ratio = log_target - math.log(611.2)
@@ -183,7 +183,7 @@ def _dew_point_scalar(temp_air: float, relative_humidity: float) -> float:
     for _ in range(_DEW_POINT_MAX_ITERATIONS):
         c = _OVER_ICE if temp <= _TRIPLE_POINT else _OVER_WATER
         kelvin = temp + _ZERO_CELSIUS
-        step = (_ln_pws(kelvin, c, math.log) - log_target) / _ln_pws_slope(kelvin, c)
+        step: float = (_ln_pws(kelvin, c, math.log) - log_target) / _ln_pws_slope(kelvin, c)
         temp = min(max(temp - step, _TEMP_MIN), _TEMP_MAX)
         if abs(step) <= _DEW_POINT_TOLERANCE:
             return min(temp, temp_air)
