@@ -11,7 +11,7 @@ import math
 import numpy as np
 import pandas as pd
 import pytest
-from hypothesis import given, settings
+from hypothesis import assume, given, settings
 from hypothesis import strategies as st
 from pythermalcomfort.environment import running_mean_outdoor_temperature as ptc_running_mean
 from pythermalcomfort.models import adaptive_ashrae, adaptive_en
@@ -111,6 +111,11 @@ def test_elevated_air_speed_allowance(
 def test_ashrae55_matches_pythermalcomfort(
     temp_running_mean: float, temp_operative: float, air_speed: float
 ) -> None:
+    # At exactly 25 °C pythermalcomfort 4.8 is not consistent with itself: its
+    # ASHRAE function adds the air-speed allowance there, its EN function does
+    # so or not depending on the running mean. The table's edge is checked in
+    # test_elevated_air_speed_allowance; the cross-check keeps off the edge.
+    assume(temp_operative != 25.0)
     # pythermalcomfort.models.adaptive_ashrae, round_output=False [lib]; with
     # tdb = tr the operative temperature is tdb
     reference = adaptive_ashrae(
@@ -188,6 +193,11 @@ def test_en16798_refuses_an_unknown_category() -> None:
 def test_en16798_matches_pythermalcomfort(
     temp_running_mean: float, temp_operative: float, air_speed: float
 ) -> None:
+    # At exactly 25 °C pythermalcomfort 4.8 is not consistent with itself: its
+    # ASHRAE function adds the air-speed allowance there, its EN function does
+    # so or not depending on the running mean. The table's edge is checked in
+    # test_elevated_air_speed_allowance; the cross-check keeps off the edge.
+    assume(temp_operative != 25.0)
     # pythermalcomfort.models.adaptive_en, round_output=False [lib]; the same
     # air-speed allowance on the upper limits [lib]
     reference = adaptive_en(

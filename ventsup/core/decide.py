@@ -363,14 +363,22 @@ def _next_openings(
         moves = actuator.recent_moves(prev.moves, t)
         if name in comfort_moves:
             moves = (*moves, t)
-        state = replace(prev, moves=moves, fault_since=fault_since.get(name))
-        if target != prev.target:
+        fault = fault_since.get(name)
+        if target == prev.target:
+            if moves == prev.moves and fault == prev.fault_since:
+                state = prev  # the common case: nothing about this opening changed
+            else:
+                state = replace(prev, moves=moves, fault_since=fault)
+        else:
             was_open = prev.target is not None and prev.target > 0.0
             is_open = target is not None and target > 0.0
-            state = replace(state, target=target, changed_at=t)
-            if is_open and not was_open:
-                state = replace(state, opened_at=t)
-            if was_open and target == 0.0:
-                state = replace(state, closed_at=t)
+            state = OpeningState(
+                target=target,
+                changed_at=t,
+                opened_at=t if is_open and not was_open else prev.opened_at,
+                closed_at=t if was_open and target == 0.0 else prev.closed_at,
+                moves=moves,
+                fault_since=fault,
+            )
         result[name] = state
     return result

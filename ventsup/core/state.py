@@ -190,4 +190,8 @@ class ZoneState:
 
     def opening(self, name: str) -> OpeningState:
         """The state of one opening (a fresh one if never seen)."""
-        return self.openings.get(name, OpeningState())
+        state = self.openings.get(name)
+        return _NEVER_SEEN if state is None else state
+
+
+_NEVER_SEEN = OpeningState()

@@ -32,6 +32,8 @@ class CareResult:
 
 def recent_moves(moves: tuple[float, ...], t: float) -> tuple[float, ...]:
     """The move times within the hour before ``t``."""
+    if not moves or t - moves[0] < HOUR:  # kept in time order, so the oldest decides
+        return moves
     return tuple(m for m in moves if t - m < HOUR)
 
 
