@@ -17,7 +17,7 @@ PY := $(VENV)/bin/python
 STAMP := $(VENV)/.installed
 LINT_PATHS := ventsup simulator tests benchmarks
 
-.PHONY: venv broker test lint demo clean distclean
+.PHONY: venv broker browser test lint demo clean distclean
 
 venv: $(STAMP)
 
@@ -67,8 +67,21 @@ broker:
 		exit 1; \
 	fi
 
+# The report tests open the HTML page in Debian's headless Chromium.
+browser:
+	@if command -v chromium >/dev/null 2>&1; then exit 0; fi; \
+	if [ "$$(id -u)" -eq 0 ] && command -v apt-get >/dev/null 2>&1; then \
+		echo "installing chromium with apt-get"; \
+		apt-get update; \
+		DEBIAN_FRONTEND=noninteractive apt-get install -y chromium </dev/null; \
+	else \
+		echo "error: the report tests need Debian's chromium (run headless):" >&2; \
+		echo "       sudo apt-get install chromium" >&2; \
+		exit 1; \
+	fi
+
 # pytest exits with 5 when it collected no tests: say so, then fail.
-test: venv broker
+test: venv broker browser
 	$(VENV)/bin/ruff check $(LINT_PATHS)
 	@echo '$(PY) -m pytest'; \
 	rc=0; "$(PY)" -m pytest || rc=$$?; \

@@ -27,7 +27,6 @@ EXIT_UNFINISHED = 3
 
 _UNFINISHED = {
     "replay": "run the rules over logged data",
-    "report": "write the monthly free-cooling report",
 }
 
 
@@ -92,6 +91,7 @@ def _run(args: argparse.Namespace) -> int:
         observe=args.observe,
         ledger=None if args.ledger is None else Path(args.ledger),
         log_format=args.log_format,
+        sim_clock=args.sim_clock,
     )
 
 
@@ -221,6 +221,12 @@ def build_parser() -> argparse.ArgumentParser:
         choices=("text", "json"),
         help="log lines as text or as JSON objects (default: controller.log_format)",
     )
+    run.add_argument(
+        "--sim-clock",
+        action="store_true",
+        help="take the time from a simulator over MQTT (<prefix>/sim/clock) in lock-step, "
+        "for `python -m simulator --mqtt`; the ledger defaults to a -sim file",
+    )
     run.set_defaults(handler=_run)
 
     override = commands.add_parser(
@@ -264,6 +270,14 @@ def build_parser() -> argparse.ArgumentParser:
     )
     _add_broker_login(status)
     status.set_defaults(handler=_status)
+
+    from ventsup.drivers import reporting  # here, not at the top: it brings pandas
+
+    report = commands.add_parser(
+        "report", help="write the free-cooling report for a month or a period (HTML, CSV, JSON)"
+    )
+    reporting.add_report_arguments(report)
+    report.set_defaults(handler=reporting.cli_report)
 
     for command, summary in _UNFINISHED.items():
         sub = commands.add_parser(command, help=f"{summary} (not implemented yet)")
