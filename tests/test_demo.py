@@ -32,9 +32,9 @@ def test_bundled_demo_files_are_the_config_folder_files() -> None:
         assert bundled.read_bytes() == (ROOT / "config" / name).read_bytes()
 
 
-def test_demo_runs_the_bundled_day_and_explains_each_change() -> None:
+def test_demo_day_replays_the_bundled_day_and_explains_each_change() -> None:
     result = subprocess.run(
-        [sys.executable, "-m", "ventsup.cli", "demo"],
+        [sys.executable, "-m", "ventsup.cli", "demo", "--day"],
         capture_output=True,
         text=True,
         timeout=300,
@@ -48,3 +48,27 @@ def test_demo_runs_the_bundled_day_and_explains_each_change() -> None:
     assert "rain since 12:40 (roof_rain = wet); dry delay 20 min" in out
     assert "Hours by mode" in out
     assert "listed fire system" in out
+
+
+def test_demo_simulates_the_month_and_writes_its_report(tmp_path: Path) -> None:
+    # The main job on embedded defaults, at 10-minute steps to keep the suite quick.
+    result = subprocess.run(
+        [sys.executable, "-m", "ventsup.cli", "demo", "--step", "600", "--out", str(tmp_path)],
+        capture_output=True,
+        text=True,
+        timeout=600,
+        check=False,
+    )
+    assert result.returncode == 0, result.stderr
+    out = result.stdout
+    assert "June 2027, per zone" in out
+    for zone in ("commons", "classroom_east", "studio_west"):
+        assert zone in out
+    # The scripted drill (config/demo-scenario.yaml: 2027-06-16 10:30) must release the hall.
+    assert "released to the fire system: smoke alarm commons_smoke active since 10:30" in out
+    html = tmp_path / "quarry-lane-commons-2027-06.html"
+    assert f"Report: {html}" in out
+    page = html.read_text(encoding="utf-8")
+    assert "listed fire system" in page
+    assert (tmp_path / "quarry-lane-commons-2027-06-summary.csv").exists()
+    assert "100%" in result.stderr  # progress was shown while it ran

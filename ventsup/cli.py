@@ -66,13 +66,8 @@ def _check(args: argparse.Namespace) -> int:
 
 
 def _demo(args: argparse.Namespace) -> int:
-    try:
-        from ventsup import demo
-    except ModuleNotFoundError as exc:
-        if exc.name != "ventsup.demo":
-            raise
-        print("ventsup demo: not implemented yet (UNFINISHED)", file=sys.stderr)
-        return EXIT_UNFINISHED
+    from ventsup import demo
+
     result: int = demo.main(args)
     return result
 
@@ -284,8 +279,12 @@ def build_parser() -> argparse.ArgumentParser:
         sub.add_argument("rest", nargs=argparse.REMAINDER, help=argparse.SUPPRESS)
         sub.set_defaults(handler=_unfinished(command))
 
-    demo = commands.add_parser("demo", help="run the demo building in the simulator")
-    demo.add_argument("rest", nargs=argparse.REMAINDER, help=argparse.SUPPRESS)
+    demo = commands.add_parser(
+        "demo", help="a simulated June of the invented demo building, ending with its report"
+    )
+    from ventsup import demo as demo_module
+
+    demo_module.add_arguments(demo)
     demo.set_defaults(handler=_demo)
     return parser
 

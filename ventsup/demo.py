@@ -1,26 +1,38 @@
-"""`ventsup demo`: the decision core over a bundled day of an invented building.
+"""`ventsup demo`: the controller on an invented building, with nothing to install.
 
-UNFINISHED: this is the stand-in demo until the building simulator lands. It
-replays one invented June day of Quarry Lane Commons (see
-``tools/make_demo_log.py``) through the same decision core the daemon uses,
-prints every change of each zone's mode or targets with its reason, then the
-hours by mode. The simulator-driven month in closed loop replaces it.
+By default it simulates June 2027 at Quarry Lane Commons (an invented
+library with a tall commons hall and two ordinary rooms) in closed loop: the
+building simulator (``simulator/``: 5R1C zones, stack and wind airflow,
+seeded synthetic weather, a scripted month of showers, a smoke drill, gusts,
+a sensor dropout and a jammed vent) publishes sensor values, the same
+decision core the daemon runs decides every minute, and the simulator moves
+the openings. It ends with the monthly report written to ``out/demo/`` and a
+one-screen summary.
+
+The coupling is in-process: no broker and no database are needed. The same
+month over MQTT against a running ``ventsup run`` is what
+``python -m simulator --mqtt`` is for, where available.
+
+``--day`` instead replays one bundled, hand-shaped day (``tools/make_demo_log.py``)
+and prints every change of each zone's mode with its reason.
 """
 
 from __future__ import annotations
 
 import argparse
+import dataclasses
 import sys
+import time
 from collections import defaultdict
 from datetime import datetime
 from pathlib import Path
+from typing import TYPE_CHECKING, Any, TextIO
 from zoneinfo import ZoneInfo
 
-from ventsup.config.load import load_config
-from ventsup.drivers.replay import replay
-from ventsup.edges.logs import read_wide_csv
+if TYPE_CHECKING:
+    from ventsup.config.model import SiteConfig
 
-__all__ = ["CAUTIONS", "main"]
+__all__ = ["CAUTIONS", "add_arguments", "main"]
 
 CAUTIONS = (
     "Safety: life-safety smoke control belongs to the listed fire system; ventsup only "
@@ -29,18 +41,154 @@ CAUTIONS = (
     "Local codes and licensed engineers have the last word on how a building is ventilated.",
 )
 
+DATA = Path(__file__).parent / "data"
+MONTH = ("2027-06-01", "2027-07-01")
+WARM_UP_DAYS = 8
 
-def _data(name: str) -> Path:
-    return Path(__file__).parent / "data" / name
+
+def add_arguments(parser: argparse.ArgumentParser) -> None:
+    """The demo's options (all optional: the defaults are the embedded demo)."""
+    parser.add_argument("--site", type=Path, help="site file (default: the demo site)")
+    parser.add_argument("--out", type=Path, default=Path("out/demo"), help="report folder")
+    parser.add_argument("--step", type=float, default=60.0, help="time step [s] (default 60)")
+    parser.add_argument(
+        "--day",
+        action="store_true",
+        help="replay the bundled invented day instead of simulating a month",
+    )
+    parser.add_argument("--log", type=Path, help="with --day: a wide CSV log to replay")
 
 
 def main(args: argparse.Namespace | None = None) -> int:
-    """Run the demo; ``args.config`` / ``args.log`` override the bundled files."""
-    config_path = Path(getattr(args, "config", None) or _data("demo-site.yaml"))
-    log_path = Path(getattr(args, "log", None) or _data("demo-day.csv"))
-    step = float(getattr(args, "step", None) or 60.0)
-    out = sys.stdout
-    config = load_config(config_path)
+    """Run the demo; returns the exit status."""
+    if args is None:
+        parser = argparse.ArgumentParser(prog="ventsup demo")
+        add_arguments(parser)
+        args = parser.parse_args([])
+    from ventsup.config import load_config
+
+    config = load_config(args.site or DATA / "demo-site.yaml")
+    if args.day:
+        return _replay_day(config, args.log or DATA / "demo-day.csv", args.step, sys.stdout)
+    return _simulate_month(config, args.out, args.step, sys.stdout)
+
+
+# ---------------------------------------------------------------------------------- month
+
+
+class _Recorder:
+    """The decision core as the simulator's controller, keeping every decision."""
+
+    def __init__(self, config: SiteConfig) -> None:
+        from simulator.loop import CoreController
+
+        self._core = CoreController(config)
+        self.decisions: list[Any] = []
+
+    def __call__(self, zone: str, held: Any, state: Any, t: float) -> Any:
+        decision, next_state = self._core(zone, held, state, t)
+        self.decisions.append(decision)
+        return decision, next_state
+
+
+def _bar(label: str, out: TextIO) -> Any:
+    started = time.monotonic()
+
+    def show(share: float) -> None:
+        filled = int(share * 30)
+        elapsed = time.monotonic() - started
+        print(
+            f"\r{label} [{'#' * filled}{'.' * (30 - filled)}] {share:4.0%} {elapsed:4.0f} s",
+            end="" if share < 1.0 else "\n",
+            file=out,
+            flush=True,
+        )
+
+    return show
+
+
+def _simulate_month(config: SiteConfig, out_dir: Path, step: float, out: TextIO) -> int:
+    import pandas as pd
+
+    from simulator.building import load_building
+    from simulator.loop import run
+    from simulator.scenario import load_scenario
+    from simulator.weather import synthetic
+    from ventsup.core.figures import decisions_to_frame
+    from ventsup.drivers.reporting import write_report
+
+    site = config.site
+    tz = site.time_zone
+    building = load_building(DATA / "demo-building.yaml", config)
+    scenario = load_scenario(DATA / "demo-scenario.yaml", config)
+    location = (site.location.latitude, site.location.longitude) if site.location else (41.0, -88.0)
+    start, end = (pd.Timestamp(day, tz=tz) for day in MONTH)
+    # A week before June gives the adaptive comfort model its running mean of
+    # outdoor temperature from the first day of the report.
+    warm_up = start - pd.Timedelta(days=WARM_UP_DAYS)
+    weather = synthetic(
+        *location, tz, warm_up - pd.Timedelta(days=1), end + pd.Timedelta(days=1), seed=7
+    )
+    print(
+        f"ventsup demo: {site.name} (an invented building), June 2027 in closed loop with the "
+        f"building simulator, decisions every {step:.0f} s (after {WARM_UP_DAYS} days of "
+        f"warm-up).\n"
+        f"Scenario: {scenario.name}.",
+        file=out,
+    )
+    recorder = _Recorder(config)
+    result = run(
+        config,
+        building,
+        weather,
+        scenario,
+        warm_up,
+        end,
+        step,
+        controller=recorder,
+        progress=_bar("simulating", sys.stderr),
+    )
+    print("writing the monthly report ...", file=sys.stderr, flush=True)
+    frame = decisions_to_frame(recorder.decisions, config)
+    paths = write_report(config, frame, start.timestamp(), end.timestamp(), out_dir)
+
+    june = {zone: frame[frame.index >= start] for zone, frame in result.zones.items()}
+    summary = dataclasses.replace(result, zones=june).summary()
+    print("\nJune 2027, per zone", file=out)
+    header = (
+        f"{'zone':<15}{'free cooling h':>15}{'night flush h':>14}{'open h':>8}"
+        f"{'above comfort h':>16}{'peak °C':>9}{'cooled kWh':>11}"
+    )
+    print(header, file=out)
+    for zone, row in summary.iterrows():
+        print(
+            f"{zone!s:<15}{row['free_cooling_hours']:>15.1f}{row['night_flush_hours']:>14.1f}"
+            f"{row['open_hours']:>8.1f}{row['hours_above_comfort']:>16.1f}"
+            f"{row['peak_temperature']:>9.1f}{row['cooling_kwh']:>11.0f}",
+            file=out,
+        )
+    changes = result.changes[result.changes["time"] >= start]
+    print(f"\n{len(changes)} changes of mode or targets. A few of them:", file=out)
+    shown: set[str] = set()
+    for _, change in changes.iterrows():
+        mode = str(change.get("mode", ""))
+        if mode in shown or mode in ("idle", "unoccupied", "secured"):
+            continue
+        shown.add(mode)
+        when = pd.Timestamp(change["time"]).tz_convert(tz)
+        print(f"  {when:%a %d %H:%M}  {change['zone']:<15} {change['reason']}", file=out)
+    print(f"\nReport: {paths.html}", file=out)
+    print(" ".join(CAUTIONS), file=out)
+    return 0
+
+
+# ---------------------------------------------------------------------------------- day
+
+
+def _replay_day(config: SiteConfig, log_path: Path, step: float, out: TextIO) -> int:
+    from ventsup.drivers.replay import replay
+    from ventsup.edges.logs import read_wide_csv
+
     samples = read_wide_csv(log_path, config)
     tz = ZoneInfo(config.site.time_zone)
     start, end = samples[0].t, samples[-1].t + 300.0
@@ -62,7 +210,8 @@ def main(args: argparse.Namespace | None = None) -> int:
         key = (decision.mode, tuple(decision.targets.values()))
         previous = last.get(decision.zone)
         if previous is not None and previous[1] != key[1]:
-            moves[decision.zone] += sum(a != b for a, b in zip(previous[1], key[1], strict=True))
+            before: tuple[object, ...] = previous[1]  # type: ignore[assignment]
+            moves[decision.zone] += sum(a != b for a, b in zip(before, key[1], strict=True))
         if previous != key:
             last[decision.zone] = key
             when = datetime.fromtimestamp(decision.t, tz).strftime("%H:%M")
