@@ -1,8 +1,8 @@
 """Building simulator: try ventsup against a building before it touches a real window.
 
 A separate package that depends on ``ventsup`` only for configuration, shared
-physics and (in the in-process loop) the decision core; ``ventsup`` never
-imports it.
+physics, (in the in-process loop) the decision core and (over MQTT) the
+daemon's MQTT edge and lock-step protocol; ``ventsup`` never imports it.
 
 >>> from ventsup.config import load_config
 >>> from simulator import load_building, run, synthetic
@@ -25,15 +25,24 @@ Modules (each small and obvious):
 - :mod:`simulator.scenario`: scripted events and faults (YAML).
 - :mod:`simulator.loop`: the in-process closed loop with the decision core,
   :class:`Result`, and the what-if helper.
-- ``python -m simulator``: run or compare from the command line.
+- :mod:`simulator.bridge`: the same loop against a running ``ventsup run
+  --sim-clock`` over MQTT, in lock-step with a simulated clock
+  (:class:`MqttController`, :func:`run_mqtt`).
+- ``python -m simulator``: run or compare from the command line (``--mqtt``
+  for the daemon over the broker).
 
-UNFINISHED: the MQTT bridge with a lock-step simulated clock (``bridge.py``),
-the closed loop against a running ``ventsup run`` over a real broker, and
-``make demo`` on the simulator land with the daemon, which does not exist yet.
+UNFINISHED: ``make demo`` on the simulator.
 """
 
+from simulator.bridge import MqttController, run_mqtt
 from simulator.building import Building, load_building
-from simulator.errors import BuildingError, ScenarioError, SimulatorError, WeatherError
+from simulator.errors import (
+    BuildingError,
+    ControllerError,
+    ScenarioError,
+    SimulatorError,
+    WeatherError,
+)
 from simulator.loop import CoreController, FixedController, Result, run, what_if
 from simulator.scenario import Scenario, load_scenario
 from simulator.weather import (
@@ -51,8 +60,10 @@ __all__ = [
     "Building",
     "BuildingError",
     "Climate",
+    "ControllerError",
     "CoreController",
     "FixedController",
+    "MqttController",
     "Result",
     "Scenario",
     "ScenarioError",
@@ -65,6 +76,7 @@ __all__ = [
     "read_csv",
     "read_epw",
     "run",
+    "run_mqtt",
     "synthetic",
     "what_if",
 ]

@@ -7,12 +7,19 @@ Examples::
     python -m simulator --scenario drill.yaml --start 2024-07-02 --end 2024-07-03
     python -m simulator --start 2024-05-01 --end 2024-06-01 --step 600 \\
         --what-if opening_area=0.5,1,1.5,2
+    ventsup run site.yaml --sim-clock &      # then, against that daemon over MQTT:
+    python -m simulator --site site.yaml --mqtt --start 2024-07-01 --end 2024-07-08
 
 Defaults: the demo site and building in ``config/``, synthetic weather of the
 ``humid_continental`` climate at the site's location (seed 0), one-minute
 steps. Prints the per-zone summary and the monthly free-cooling hours (or the
 what-if table); progress goes to stderr. Exit status 2 for a problem with an
 input file, with every problem listed as ``file:line key: what was expected``.
+
+With ``--mqtt [HOST:PORT]`` the decisions come from a running ``ventsup run
+SITE --sim-clock`` over the broker (default: the site's ``mqtt`` section) in
+lock-step instead of the decision core in process (see
+:mod:`simulator.bridge`); exit status 1 when the controller does not answer.
 """
 
 from __future__ import annotations
@@ -24,13 +31,15 @@ from pathlib import Path
 
 import pandas as pd
 
+from simulator.bridge import run_mqtt
 from simulator.building import load_building
-from simulator.errors import SimulatorError
-from simulator.loop import run, what_if
+from simulator.errors import ControllerError, SimulatorError
+from simulator.loop import Result, run, what_if
 from simulator.scenario import load_scenario
 from simulator.weather import CLIMATES, Weather, read_csv, read_epw, synthetic
 from ventsup.config import load_config
 from ventsup.config.errors import VentsupError
+from ventsup.config.model import SiteConfig
 
 _CONFIG = Path(__file__).resolve().parent.parent / "config"
 
@@ -58,7 +67,42 @@ def _parser() -> argparse.ArgumentParser:
         metavar="PARAMETER=V1,V2,...",
         help="opening_area=0.5,1,2 or a rule path such as free_cooling.open_above=22,23,24",
     )
+    mqtt = parser.add_argument_group(
+        "over MQTT", "decide with a running `ventsup run SITE --sim-clock` instead of in process"
+    )
+    mqtt.add_argument(
+        "--mqtt",
+        nargs="?",
+        const="",
+        metavar="HOST:PORT",
+        help="the broker (default: the site's mqtt section)",
+    )
+    mqtt.add_argument(
+        "--prefix", help="the controller's topic prefix, if not the site file's prefix"
+    )
+    mqtt.add_argument(
+        "--timeout",
+        type=float,
+        default=30.0,
+        help="seconds to wait for the controller, at the start and per step (default 30)",
+    )
     return parser
+
+
+def _broker(text: str) -> tuple[str | None, int | None]:
+    """``HOST:PORT``, ``HOST`` or ``""`` (the site's broker) -> (host, port)."""
+    if not text:
+        return None, None
+    host, colon, port = text.rpartition(":")
+    if not colon:
+        return text, None
+    try:
+        number = int(port)
+    except ValueError:
+        raise SimulatorError(
+            f"--mqtt: got {text!r}, expected HOST:PORT such as 127.0.0.1:1883"
+        ) from None
+    return host or None, number
 
 
 def _weather(args: argparse.Namespace, time_zone: str, location: tuple[float, float]) -> Weather:
@@ -90,8 +134,35 @@ def main(argv: Sequence[str] | None = None) -> int:
             else (0.0, 0.0)
         )
         weather = _weather(args, site.site.time_zone, location)
+        if args.prefix is not None:
+            site = site.model_copy(update={"prefix": args.prefix})
         pd.set_option("display.width", 160)
         pd.set_option("display.max_columns", 20)
+        if args.what_if and args.mqtt is not None:
+            raise SimulatorError("--what-if runs in process only; leave out --mqtt")
+        if args.mqtt is not None:
+            host, port = _broker(args.mqtt)
+            result, stats = run_mqtt(
+                site,
+                building,
+                weather,
+                scenario,
+                args.start,
+                args.end,
+                args.step,
+                host=host,
+                port=port,
+                timeout=args.timeout,
+                config_dir=args.site.resolve().parent,
+                progress=_progress,
+            )
+            print(
+                f"over MQTT with the controller under {site.topic_prefix}: {stats.steps} steps, "
+                f"{stats.published} messages out, {stats.outputs} in, {stats.rejected} values "
+                f"rejected by the controller"
+            )
+            _print(site, args, weather, result)
+            return 0
         if args.what_if:
             parameter, _, text = args.what_if.partition("=")
             try:
@@ -125,14 +196,21 @@ def main(argv: Sequence[str] | None = None) -> int:
             args.step,
             progress=_progress,
         )
+    except ControllerError as exc:
+        print(f"\nerror: {exc}", file=sys.stderr)
+        return 1
     except VentsupError as exc:
         print(f"error: {exc}", file=sys.stderr)
         return 2
+    _print(site, args, weather, result)
+    return 0
+
+
+def _print(site: SiteConfig, args: argparse.Namespace, weather: Weather, result: Result) -> None:
     print(f"{site.site.name}: {args.start} to {args.end}, {weather.source or 'weather'}")
     print(result.summary().round(1).to_string())
     print("\nfree-cooling hours per month")
     print(result.monthly_hours().round(1).to_string())
-    return 0
 
 
 if __name__ == "__main__":

@@ -7,7 +7,8 @@ Hierarchy (the ventsup classes come from :mod:`ventsup.config.errors`)::
     │   ├── BuildingError      the building description (demo-building.yaml)
     │   └── ScenarioError      a scenario script
     └── SimulatorError         a run cannot go ahead
-        └── WeatherError       weather data missing, malformed or too short (also a ValueError)
+        ├── WeatherError       weather data missing, malformed or too short (also a ValueError)
+        └── ControllerError    over MQTT: the broker or the controller did not answer as agreed
 
 File problems read like the site loader's:
 ``scenario.yaml:7 events[2].rain.duration: got 'forty', expected a duration such as '30 s', '15 min' or '2 h'``.
@@ -17,7 +18,7 @@ from __future__ import annotations
 
 from ventsup.config.errors import ConfigError, VentsupError
 
-__all__ = ["BuildingError", "ScenarioError", "SimulatorError", "WeatherError"]
+__all__ = ["BuildingError", "ControllerError", "ScenarioError", "SimulatorError", "WeatherError"]
 
 
 class BuildingError(ConfigError):
@@ -34,3 +35,7 @@ class SimulatorError(VentsupError):
 
 class WeatherError(SimulatorError, ValueError):
     """Weather data are missing, malformed or do not cover the run."""
+
+
+class ControllerError(SimulatorError):
+    """Over MQTT (:mod:`simulator.bridge`): the broker or the controller failed the lock-step."""

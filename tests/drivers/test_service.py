@@ -315,7 +315,7 @@ def test_kill_and_restart_restores_latches_and_moves_no_window(
 
 def _password_broker(directory: Path, prefix: str) -> tuple[Any, dict[str, str]]:
     """Start a mosquitto with a password file and an ACL; returns it and the passwords."""
-    from conftest import BrokerProcess, find_mosquitto, free_port
+    from tests.conftest import BrokerProcess, find_mosquitto, free_port
 
     passwords = {user: uuid.uuid4().hex for user in ("ventsup", "operator", "viewer", "gateway")}
     password_file = directory / "passwd"
@@ -464,7 +464,7 @@ def _certificates(directory: Path) -> None:
 
 
 def test_tls_with_the_wrong_ca_is_refused(tmp_path: Path, topic_prefix: str) -> None:
-    from conftest import BrokerProcess, find_mosquitto, free_port
+    from tests.conftest import BrokerProcess, find_mosquitto, free_port
 
     _certificates(tmp_path)
     port = free_port()

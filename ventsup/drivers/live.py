@@ -74,11 +74,19 @@ def run(
     observe: bool = False,
     ledger: Path | None = None,
     log_format: LogFormat | None = None,
+    sim_clock: bool = False,
 ) -> int:
-    """Run the daemon until SIGTERM or SIGINT; 0 after a clean stop, 1 on a failure."""
+    """Run the daemon until SIGTERM or SIGINT; 0 after a clean stop, 1 on a failure.
+
+    ``sim_clock``: take the time from a simulator (see :mod:`ventsup.drivers.simclock`).
+    """
     configure_logging(log_format or config.controller.log_format)
     service = Service(
-        config, config_dir=config_path.resolve().parent, observe=observe, ledger_path=ledger
+        config,
+        config_dir=config_path.resolve().parent,
+        observe=observe,
+        ledger_path=ledger,
+        sim_clock=sim_clock,
     )
     try:
         service.start()

@@ -45,6 +45,16 @@ published. Zone state (every evaluation), interlock (on change), opening state
 after every reconnect (a restarted broker may have lost them); commands are
 not repeated on reconnect.
 
+Simulated clock
+---------------
+With ``sim_clock=True`` (``ventsup run --sim-clock``) the daemon takes its
+time from a simulator over MQTT instead of the wall clock, in lock-step: see
+:mod:`ventsup.drivers.simclock` for why, the protocol and the ordering
+argument. Only the worker's loop differs (:meth:`Service._sim_loop`); the
+supervisor, and so decoding, urgent evaluation, commands, states and the
+ledger, are those of a live run. The ledger defaults to a ``-sim`` file beside
+the site's, so that simulated records never mix with real ones.
+
 Restart safety
 --------------
 Zone states whose targets, override or alarm latch changed are saved to the
@@ -63,16 +73,29 @@ import queue
 import threading
 import time
 from collections.abc import Mapping
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from pathlib import Path
 from typing import Any
 
 from ventsup.config.model import SiteConfig
 from ventsup.drivers.messages import Topics
-from ventsup.drivers.supervisor import Supervisor
-from ventsup.edges.clock import Clock, WallClock
+from ventsup.drivers.simclock import (
+    WAKE,
+    CountingPublisher,
+    QuietInbox,
+    Tick,
+    ack_payload,
+    ack_topic,
+    clock_topic,
+    parse_tick,
+    sim_ledger_path,
+    step_order,
+    watched_topics,
+)
+from ventsup.drivers.supervisor import Publisher, Supervisor
+from ventsup.edges.clock import Clock, ManualClock, WallClock
 from ventsup.edges.ledger import Ledger, LedgerError
-from ventsup.edges.mqtt import MqttClient, MqttSettings, Subscribed
+from ventsup.edges.mqtt import Message, MqttClient, MqttError, MqttSettings, Subscribed
 
 __all__ = ["Service", "Stop", "default_ledger_path"]
 
@@ -93,6 +116,13 @@ def default_ledger_path(config: SiteConfig, config_dir: Path) -> Path:
 # --------------------------------------------------------------------------- service
 
 
+@dataclass
+class _SimSchedule:
+    """What is next due in simulated time [s since the epoch]."""
+
+    next_tick: float = math.inf
+
+
 @dataclass(frozen=True)
 class Stop:
     """Asks the worker to stop (put on its queue by :meth:`Service.stop`)."""
@@ -108,6 +138,10 @@ class Service:
     to check) and starts the worker; ``stop()`` asks it to stop; ``wait()``
     joins it. On stop the worker publishes ``offline``, writes every pending
     record and closes the ledger.
+
+    With ``sim_clock`` the time comes from a simulator (see the module
+    docstring); the service then keeps its own :class:`ManualClock` (no
+    ``clock`` may be given) and restores the states at the first simulated time.
     """
 
     def __init__(
@@ -119,21 +153,36 @@ class Service:
         ledger_path: Path | None = None,
         clock: Clock | None = None,
         environ: Mapping[str, str] | None = None,
+        sim_clock: bool = False,
     ) -> None:
         self.config = config
         self.config_dir = config_dir
         self.observe = observe
-        self.ledger_path = (
-            ledger_path if ledger_path is not None else default_ledger_path(config, config_dir)
+        self.sim_clock = sim_clock
+        if ledger_path is None:
+            ledger_path = default_ledger_path(config, config_dir)
+            if sim_clock:
+                ledger_path = sim_ledger_path(ledger_path)
+        self.ledger_path = ledger_path
+        if sim_clock and clock is not None:
+            raise ValueError("a service with sim_clock keeps its own ManualClock; give no clock")
+        self.manual_clock = ManualClock() if sim_clock else None
+        self.clock: Clock = (
+            self.manual_clock if self.manual_clock is not None else (clock or WallClock())
         )
-        self.clock = clock if clock is not None else WallClock()
         self.environ = environ
         self.topics = Topics(config)
         self.queue: queue.Queue[Any] = queue.Queue(maxsize=100_000)
+        if sim_clock:  # a step's messages wait aside until its clock message (see simclock)
+            clock_name = clock_topic(config)
+            self.queue = QuietInbox(
+                lambda item: not isinstance(item, Message) or item.topic == clock_name
+            )
         self.supervisor: Supervisor | None = None
         self.mqtt: MqttClient | None = None
         self.ledger: Ledger | None = None
         self.error: BaseException | None = None
+        self.outputs: CountingPublisher | None = None
         self._thread: threading.Thread | None = None
         self._stop = threading.Event()
 
@@ -143,6 +192,7 @@ class Service:
         return [
             *dict.fromkeys(p.topic for p in self.config.points.values()),
             self.topics.override_filter,
+            *([clock_topic(self.config)] if self.sim_clock else []),
         ]
 
     def start(self) -> None:
@@ -167,10 +217,14 @@ class Service:
             self.mqtt = MqttClient(
                 settings, self.queue, subscriptions=self.subscriptions, clock=self.clock
             )
+            publisher: Publisher = self.mqtt
+            if self.sim_clock:
+                publisher = self.outputs = CountingPublisher(self.mqtt, watched_topics(self.config))
             self.supervisor = Supervisor(
-                self.config, self.mqtt, ledger=self.ledger, observe=self.observe
+                self.config, publisher, ledger=self.ledger, observe=self.observe
             )
-            self.supervisor.restore(self.clock.now())
+            if not self.sim_clock:  # with a simulated clock: at the first simulated time
+                self.supervisor.restore(self.clock.now())
             _log.info(
                 "connecting to the broker at %s as %s; topics under %s",
                 settings.where,
@@ -213,7 +267,7 @@ class Service:
     def _work(self) -> None:
         why = "stop requested"
         try:
-            why = self._loop()
+            why = self._sim_loop() if self.sim_clock else self._loop()
         except BaseException as exc:
             self.error = exc
             why = f"internal error: {exc!r}"
@@ -268,26 +322,164 @@ class Service:
             sup.expire(t)
             sup.reassert(t)
             if now >= next_heartbeat:
-                stats = self.mqtt.stats
-                sup.heartbeat(
-                    t,
-                    {
-                        "mqtt": {
-                            "connected": self.mqtt.connected,
-                            "connects": stats.connects,
-                            "disconnects": stats.disconnects,
-                            "callback_errors": stats.callback_errors,
-                            "dropped": stats.dropped,
-                            "pending": stats.pending,
-                            "refused": stats.refused,
-                        },
-                        "queue": self.queue.qsize(),
-                    },
-                )
+                sup.heartbeat(t, self._heartbeat_extra())
                 next_heartbeat += controller.heartbeat
                 if next_heartbeat <= now:
                     next_heartbeat = now + controller.heartbeat
             sup.maintain(t)
+
+    def _heartbeat_extra(self) -> dict[str, Any]:
+        assert self.mqtt is not None
+        stats = self.mqtt.stats
+        return {
+            "mqtt": {
+                "connected": self.mqtt.connected,
+                "connects": stats.connects,
+                "disconnects": stats.disconnects,
+                "callback_errors": stats.callback_errors,
+                "dropped": stats.dropped,
+                "pending": stats.pending,
+                "refused": stats.refused,
+            },
+            "queue": self.queue.qsize(),
+        }
+
+    # ----------------------------------------------------------------- simulated clock
+
+    def _sim_loop(self) -> str:
+        """The worker with a simulated clock: act on clock messages only (see ``simclock``).
+
+        Point and override messages wait aside in the :class:`QuietInbox` until
+        the clock message of their step, and the clock message waits until as
+        many point messages as it announces have arrived. Broker events
+        (connect, subscribe, refusals) are handled when they come. The ledger
+        is written and the heartbeat published on the wall clock, as in a live
+        run: that changes when, not what, and the heartbeat says the process
+        is alive.
+        """
+        sup, clock, inbox = self.supervisor, self.manual_clock, self.queue
+        assert sup is not None and clock is not None and isinstance(inbox, QuietInbox)
+        order = step_order(self.config)
+        schedule = _SimSchedule()
+        waiting: Tick | None = None
+        pending: list[Message] = []
+        points = 0  # point messages in pending
+        retained = 0
+        next_heartbeat = time.monotonic()
+        _log.info("simulated clock: the time comes from %s", clock_topic(self.config))
+        while True:
+            deadlines = [next_heartbeat]
+            write = sup.next_write()
+            if write is not None:
+                deadlines.append(write)
+            try:
+                item = inbox.get(timeout=max(0.0, min(deadlines) - time.monotonic()))
+            except queue.Empty:
+                item = None
+            if isinstance(item, Stop) or self._stop.is_set():
+                return item.reason if isinstance(item, Stop) else "stop requested"
+            if isinstance(item, Message):  # a clock message (the others wait aside)
+                if item.retain:
+                    _log.info("simulated clock: ignoring a retained clock message")
+                    continue
+                if waiting is not None:
+                    _log.warning(
+                        "simulated clock: step %d got %d of %d point messages before the "
+                        "next clock message; handling it with those",
+                        waiting.step,
+                        points,
+                        waiting.messages,
+                    )
+                    self._sim_step(waiting, pending, order, schedule)
+                    waiting, pending, points = None, [], 0
+                try:
+                    waiting = parse_tick(item.payload)
+                except ValueError as exc:
+                    self._sim_ack(None, str(exc))
+            elif item is not None and item is not WAKE:
+                try:
+                    sup.handle(item, clock.now())
+                except Exception:
+                    sup.counts["evaluation_errors"] += 1
+                    _log.exception("handling %s failed; carrying on", type(item).__name__)
+            if waiting is not None:
+                inbox.waking = True  # before taking: a message after this wakes us
+                for message in inbox.take_aside():
+                    if message.retain:  # a value from before the simulation
+                        retained += 1
+                        if retained == 1:
+                            _log.info("simulated clock: ignoring retained %s", message.topic)
+                        continue
+                    pending.append(message)
+                    points += message.topic in sup.topic_points
+                if points >= waiting.messages:
+                    inbox.waking = False
+                    self._sim_step(waiting, pending, order, schedule)
+                    waiting, pending, points = None, [], 0
+            now = time.monotonic()
+            if now >= next_heartbeat:
+                sup.heartbeat(clock.now(), self._heartbeat_extra())
+                next_heartbeat = now + self.config.controller.heartbeat
+            sup.maintain(clock.now())
+
+    def _sim_step(
+        self,
+        tick: Tick,
+        messages: list[Message],
+        order: Mapping[str, tuple[int, int]],
+        schedule: _SimSchedule,
+    ) -> None:
+        """Handle one step at ``tick.t``: its messages, what is due, then the acknowledgement."""
+        sup, clock = self.supervisor, self.manual_clock
+        assert sup is not None and clock is not None
+        try:
+            clock.set(tick.t)
+        except ValueError as exc:
+            self._sim_ack(tick, f"step {tick.step}: {exc}")
+            return
+        t = tick.t
+        controller = self.config.controller
+        if not sup.ready:
+            sup.restore(t)
+        # One order whatever the broker's: the site's points, urgent ones last, then the rest.
+        ranked = sorted(
+            enumerate(messages), key=lambda item: (*order.get(item[1].topic, (2, 0)), item[0])
+        )
+        for _, message in ranked:
+            try:
+                sup.handle(replace(message, t=t), t)
+            except Exception:
+                sup.counts["evaluation_errors"] += 1
+                _log.exception("handling a message on %s failed; carrying on", message.topic)
+        if not sup.ready:
+            sup.begin(t)
+            schedule.next_tick = t + controller.tick
+        elif t >= schedule.next_tick:
+            sup.evaluate(self.config.zones, sup.eval_time(t), "tick")
+            schedule.next_tick += controller.tick
+            if schedule.next_tick <= t:
+                schedule.next_tick = t + controller.tick
+        sup.expire(t)
+        sup.reassert(t)
+        self._sim_ack(tick, None)
+
+    def _sim_ack(self, tick: Tick | None, error: str | None) -> None:
+        """Publish the acknowledgement, after every output of the step (same connection, QoS 1)."""
+        sup, outputs = self.supervisor, self.outputs
+        assert sup is not None and outputs is not None and self.mqtt is not None
+        if error is not None:
+            _log.error("simulated clock: %s", error)
+        payload = ack_payload(
+            tick,
+            outputs=outputs.count,
+            accepted=sup.counts["accepted"],
+            rejected=sum(sup.rejected.values()),
+            error=error,
+        )
+        try:
+            self.mqtt.publish(ack_topic(self.config), payload, qos=1)
+        except MqttError as exc:
+            _log.error("simulated clock: cannot acknowledge: %s", exc)
 
     def _shutdown(self, why: str) -> None:
         _log.info("stopping: %s", why)

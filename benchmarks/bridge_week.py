@@ -1,0 +1,191 @@
+"""How long a simulated week of the demo building takes over MQTT, against the daemon.
+
+Run from the repository root (needs Debian's mosquitto, as the broker tests)::
+
+    .venv/bin/python benchmarks/bridge_week.py              # a week at one-minute steps
+    .venv/bin/python benchmarks/bridge_week.py --days 1
+
+It starts a mosquitto on a free loopback port and ``ventsup run --sim-clock``
+as its own process (with a fresh ledger in a temporary folder), then runs the
+same week twice and prints both beside each other (see benchmarks/README.md):
+
+- ``in process`` (the baseline): :func:`simulator.loop.run` with the decision
+  core called in process;
+- ``over MQTT``: the same loop with :class:`simulator.bridge.MqttController`,
+  every step's point values published to the broker, the daemon deciding in
+  lock-step with the simulated clock, its commands and states read back.
+
+It then checks that the run over MQTT equals, step for step, the in-process
+run with :class:`simulator.bridge.CommandedCore` (the core, its targets as
+the commands carry them).
+
+Besides the wall time it prints the CPU time of each process (simulator,
+daemon, broker; from ``/proc``), which says what a step costs when the host is
+busy with other work, and the bridge's counts. Nothing is asserted.
+"""
+
+from __future__ import annotations
+
+import argparse
+import os
+import resource
+import shutil
+import socket
+import subprocess
+import sys
+import tempfile
+import time
+from pathlib import Path
+
+import pandas as pd
+
+from simulator.bridge import CommandedCore, MqttController, open_hours
+from simulator.building import load_building
+from simulator.loop import run
+from simulator.weather import synthetic
+from ventsup.config import load_config
+
+ROOT = Path(__file__).resolve().parent.parent
+PREFIX = "bench"
+TZ = "America/Chicago"
+
+
+def _free_port() -> int:
+    with socket.socket() as probe:
+        probe.bind(("127.0.0.1", 0))
+        port: int = probe.getsockname()[1]
+        return port
+
+
+def _wait_for_port(port: int, process: subprocess.Popen[bytes], what: str) -> None:
+    deadline = time.monotonic() + 10.0
+    while True:
+        if process.poll() is not None:
+            raise SystemExit(f"{what} exited with code {process.returncode}")
+        try:
+            with socket.create_connection(("127.0.0.1", port), timeout=0.5):
+                return
+        except OSError:
+            if time.monotonic() > deadline:
+                raise SystemExit(f"{what} did not listen on port {port}") from None
+            time.sleep(0.02)  # polling a port that is not open yet; not synchronisation
+
+
+def _cpu_seconds(pid: int) -> float:
+    """User + system CPU time of a running process [s] (Linux /proc)."""
+    fields = Path(f"/proc/{pid}/stat").read_text().rpartition(")")[2].split()
+    return (int(fields[11]) + int(fields[12])) / os.sysconf("SC_CLK_TCK")
+
+
+def _site_text(port: int, ledger: Path) -> str:
+    text = (ROOT / "config" / "demo-site.yaml").read_text(encoding="utf-8")
+    text = text.replace("topic: qlc/", f"topic: {PREFIX}/qlc/")
+    return text + (
+        f"\nprefix: {PREFIX}/ctl\nmqtt: {{host: 127.0.0.1, port: {port}}}\n"
+        f"controller: {{tick: 60 s, ledger: {ledger}}}\n"
+    )
+
+
+def main() -> int:
+    parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    parser.add_argument("--days", type=float, default=7.0)
+    parser.add_argument("--step", type=float, default=60.0)
+    args = parser.parse_args()
+    broker_binary = shutil.which("mosquitto") or "/usr/sbin/mosquitto"
+    if not os.access(broker_binary, os.X_OK):
+        raise SystemExit("mosquitto is not installed: run `make broker`")
+    start = pd.Timestamp("2024-07-01", tz=TZ)
+    end = start + pd.Timedelta(days=args.days)
+    with tempfile.TemporaryDirectory() as folder:
+        tmp = Path(folder)
+        port = _free_port()
+        lines = [
+            f"listener {port} 127.0.0.1",
+            "allow_anonymous true",
+            "persistence false",
+            "set_tcp_nodelay true",
+            *(["user root"] if os.geteuid() == 0 else []),
+        ]
+        (tmp / "mosquitto.conf").write_text("\n".join(lines) + "\n", encoding="utf-8")
+        site_path = tmp / "site.yaml"
+        site_path.write_text(_site_text(port, tmp / "ledger.db"), encoding="utf-8")
+        site = load_config(site_path)
+        building = load_building(ROOT / "config" / "demo-building.yaml", site)
+        weather = synthetic(
+            41.2, -88.1, TZ, start - pd.Timedelta(days=1), end + pd.Timedelta(days=1), seed=0
+        )
+        steps = int((end - start) / pd.Timedelta(seconds=args.step))
+        print(f"demo building, {args.days:g} days at {args.step:g} s steps ({steps} steps)")
+
+        began = time.perf_counter()
+        run(site, building, weather, start=start, end=end, step=args.step)
+        in_process = time.perf_counter() - began
+
+        broker = subprocess.Popen(
+            [broker_binary, "-c", str(tmp / "mosquitto.conf")],
+            stdout=subprocess.DEVNULL,
+            stderr=subprocess.DEVNULL,
+        )
+        daemon: subprocess.Popen[bytes] | None = None
+        log = (tmp / "daemon.log").open("wb")
+        try:
+            _wait_for_port(port, broker, "mosquitto")
+            daemon = subprocess.Popen(
+                [sys.executable, "-m", "ventsup.cli", "run", str(site_path), "--sim-clock"],
+                stdout=log,
+                stderr=subprocess.STDOUT,
+            )
+            cpu_self = resource.getrusage(resource.RUSAGE_SELF)
+            with MqttController(site, timeout=60.0) as controller:
+                cpu_daemon, cpu_broker = _cpu_seconds(daemon.pid), _cpu_seconds(broker.pid)
+                began = time.perf_counter()
+                result = run(
+                    site, building, weather, start=start, end=end, step=args.step,
+                    controller=controller,
+                )  # fmt: skip
+                over_mqtt = time.perf_counter() - began
+                cpu_daemon = _cpu_seconds(daemon.pid) - cpu_daemon
+                cpu_broker = _cpu_seconds(broker.pid) - cpu_broker
+            after = resource.getrusage(resource.RUSAGE_SELF)
+            cpu_simulator = (after.ru_utime - cpu_self.ru_utime) + (
+                after.ru_stime - cpu_self.ru_stime
+            )
+        finally:
+            for process in (daemon, broker):
+                if process is not None:
+                    process.terminate()
+                    process.wait(10)
+            log.close()
+        stats = controller.stats
+        per_step = over_mqtt / steps * 1e3
+        print(
+            f"in process (baseline): {in_process:8.2f} s  ({in_process / steps * 1e3:.3f} ms a step)"
+        )
+        print(
+            f"over MQTT:             {over_mqtt:8.2f} s  ({per_step:.2f} ms a step, "
+            f"{over_mqtt / in_process:.0f}x the baseline; a week would take "
+            f"{per_step * 10080 / 1e3:.0f} s)"
+        )
+        print(
+            f"CPU over MQTT: simulator {cpu_simulator:.1f} s, daemon {cpu_daemon:.1f} s, "
+            f"broker {cpu_broker:.1f} s ({(cpu_simulator + cpu_daemon + cpu_broker) / steps * 1e3:.2f} ms a step in all)"
+        )
+        print(
+            f"bridge: {stats.published} messages out, {stats.outputs} outputs in, "
+            f"{stats.accepted} values accepted and {stats.rejected} rejected by the daemon, "
+            f"{stats.waited:.1f} s waiting for it"
+        )
+        # The same week in process with the targets as the commands carry them.
+        commanded = run(
+            site, building, weather, start=start, end=end, step=args.step,
+            controller=CommandedCore(site),
+        )  # fmt: skip
+        same = all(result.zones[z].equals(commanded.zones[z]) for z in result.zones)
+        print(f"free-cooling open hours over MQTT: {open_hours(result)}")
+        print(f"the same as the core in process, step for step (targets as commanded): {same}")
+        print(f"load average while measuring: {os.getloadavg()[0]:.1f} on {os.cpu_count()} CPUs")
+    return 0
+
+
+if __name__ == "__main__":
+    raise SystemExit(main())
