@@ -97,7 +97,7 @@ from ventsup.edges.clock import Clock, ManualClock, WallClock
 from ventsup.edges.ledger import Ledger, LedgerError
 from ventsup.edges.mqtt import Message, MqttClient, MqttError, MqttSettings, Subscribed
 
-__all__ = ["Service", "Stop", "default_ledger_path"]
+__all__ = ["ReportJob", "Service", "Stop", "default_ledger_path"]
 
 _log = logging.getLogger("ventsup.service")
 
@@ -128,6 +128,67 @@ class Stop:
     """Asks the worker to stop (put on its queue by :meth:`Service.stop`)."""
 
     reason: str = "stop requested"
+
+
+class ReportJob:
+    """The hourly report catch-up, on a thread of its own, off the control loop.
+
+    Once soon after start and then every hour it writes whatever closed
+    month's report and whatever day's summary line is missing
+    (:func:`ventsup.drivers.reporting.catch_up`, idempotent, in the site's
+    time zone), so downtime is caught up too. A plain interval in real time
+    replaces calendar triggers on purpose: cron-style triggers skip runs
+    across DST changes (see shared library notes). A month of records takes
+    seconds to report, which must never delay a decision.
+    """
+
+    def __init__(
+        self,
+        config: SiteConfig,
+        ledger: Ledger,
+        clock: Clock,
+        out_dir: Path,
+        *,
+        first: float = 60.0,
+        interval: float = 3600.0,
+    ) -> None:
+        self.config = config
+        self.ledger = ledger
+        self.clock = clock
+        self.out_dir = out_dir
+        self.first = first
+        self.interval = interval
+        self._stop = threading.Event()
+        self._thread: threading.Thread | None = None
+
+    def start(self) -> None:
+        """Start the thread (a daemon thread: it never holds up a stop)."""
+        self._thread = threading.Thread(target=self._run, name="ventsup-reports", daemon=True)
+        self._thread.start()
+
+    def stop(self, timeout: float = 5.0) -> None:
+        """Ask the thread to stop and wait up to ``timeout`` seconds for it."""
+        self._stop.set()
+        if self._thread is not None:
+            self._thread.join(timeout)
+
+    def run_once(self) -> int:
+        """Write what is missing now; returns the number of files and lines written."""
+        from ventsup.drivers.reporting import catch_up  # pandas: only when reports run
+
+        done = catch_up(self.config, self.ledger, self.clock.now(), self.out_dir)
+        for paths in done.reports:
+            _log.info("wrote the report %s", paths.html)
+        return len(done.reports) + len(done.lines)
+
+    def _run(self) -> None:
+        wait = self.first
+        while not self._stop.wait(wait):
+            wait = self.interval
+            try:
+                self.run_once()
+            except Exception:
+                _log.exception("the report catch-up failed; trying again in an hour")
 
 
 class Service:
@@ -185,6 +246,7 @@ class Service:
         self.outputs: CountingPublisher | None = None
         self._thread: threading.Thread | None = None
         self._stop = threading.Event()
+        self.reports: ReportJob | None = None
 
     @property
     def subscriptions(self) -> list[str]:
@@ -237,6 +299,11 @@ class Service:
             raise
         self._thread = threading.Thread(target=self._work, name="ventsup-worker", daemon=True)
         self._thread.start()
+        if not self.sim_clock:  # simulated runs report through the simulator's own tools
+            self.reports = ReportJob(
+                self.config, self.ledger, self.clock, self.ledger_path.parent / "reports"
+            )
+            self.reports.start()
 
     def stop(self, reason: str = "stop requested") -> None:
         """Ask the worker to stop; returns at once (see :meth:`wait`)."""
@@ -483,6 +550,8 @@ class Service:
 
     def _shutdown(self, why: str) -> None:
         _log.info("stopping: %s", why)
+        if self.reports is not None:
+            self.reports.stop()  # before the ledger closes under it
         try:
             if self.mqtt is not None:
                 self.mqtt.close()
