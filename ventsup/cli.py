@@ -25,9 +25,7 @@ EXIT_FAILED = 1
 EXIT_BAD_CONFIG = 2
 EXIT_UNFINISHED = 3
 
-_UNFINISHED = {
-    "replay": "run the rules over logged data",
-}
+_UNFINISHED: dict[str, str] = {}
 
 
 def _version() -> str:
@@ -266,7 +264,13 @@ def build_parser() -> argparse.ArgumentParser:
     _add_broker_login(status)
     status.set_defaults(handler=_status)
 
-    from ventsup.drivers import reporting  # here, not at the top: it brings pandas
+    from ventsup.drivers import replay_cli, reporting  # here, not at the top: they bring pandas
+
+    replay = commands.add_parser(
+        "replay", help="run the rules over logged data; rule sets side by side; a sweep"
+    )
+    replay_cli.add_replay_arguments(replay)
+    replay.set_defaults(handler=replay_cli.cli_replay)
 
     report = commands.add_parser(
         "report", help="write the free-cooling report for a month or a period (HTML, CSV, JSON)"

@@ -70,12 +70,6 @@ def test_version(capsys: pytest.CaptureFixture[str]) -> None:
     assert capsys.readouterr().out == f"ventsup {metadata.version('ventsup')}\n"
 
 
-@pytest.mark.parametrize("command", ["replay"])
-def test_unfinished_commands_say_so(command: str, capsys: pytest.CaptureFixture[str]) -> None:
-    assert main([command, "site.yaml"]) == 3
-    assert capsys.readouterr().err == f"ventsup {command}: not implemented yet (UNFINISHED)\n"
-
-
 def test_no_command_prints_help(capsys: pytest.CaptureFixture[str]) -> None:
     assert main([]) == 2
     assert "usage: ventsup" in capsys.readouterr().err
