@@ -11,7 +11,7 @@ As the daemon does (:mod:`ventsup.drivers.service`): every zone at each tick
 ``urgent=True``, at once when a sample changes a smoke alarm or rain point's
 value, moves the wind speed across one of a zone's wind limits or their reopen
 levels, or changes a zone's windward openings (the daemon's own rule,
-:func:`ventsup.drivers.supervisor.urgent_zones`; a value that becomes known
+:func:`ventsup.core.urgency.urgent_zones`; a value that becomes known
 counts as a change). A log has no message boundaries, so every sample of one
 time is held before the urgent evaluations of that time; each zone is then
 evaluated once, triggered by the first urgent point in log order, and a tick
@@ -88,7 +88,7 @@ def _urgent_rule() -> Callable[
     [SiteConfig, str, float | bool | None, float | bool], tuple[str, ...]
 ]:
     # The daemon's own rule, so that a replay evaluates when the daemon would.
-    from ventsup.drivers.supervisor import urgent_zones
+    from ventsup.core.urgency import urgent_zones
 
     return urgent_zones
 

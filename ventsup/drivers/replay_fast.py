@@ -60,6 +60,7 @@ from ventsup.core.horizon import (
 )
 from ventsup.core.inputs import Held, Sample, zone_inputs
 from ventsup.core.state import OverrideRequest, ZoneState
+from ventsup.core.urgency import wind_levels
 from ventsup.drivers.replay import TICK, Evaluation, Run, RunBuilder, run_key
 from ventsup.edges.logs import PointLog, PointSeries
 
@@ -179,16 +180,7 @@ def _previous_known(series: PointSeries, stale_after: float) -> npt.NDArray[np.b
 
 
 def _wind_levels(config: SiteConfig, zone: str) -> FloatArray:
-    # The levels of ventsup.drivers.supervisor._wind_band, as a sorted array.
-    wind = config.rules_for(zone).wind
-    limits = {
-        wind.cap_above,
-        wind.close_above,
-        wind.windward_cap_above if wind.windward_cap_above is not None else wind.cap_above,
-        wind.windward_close_above if wind.windward_close_above is not None else wind.close_above,
-    }
-    levels = limits | {wind.reopen_ratio * limit for limit in limits}
-    return np.array(sorted(levels), dtype=np.float64)
+    return np.array(wind_levels(config, zone), dtype=np.float64)
 
 
 def _windward_key(config: SiteConfig, zone: str, direction: FloatArray) -> IntArray:
@@ -210,7 +202,7 @@ def _urgent_masks(
 ) -> list[tuple[str, npt.NDArray[np.bool_]]]:
     """Per point, which samples make ``zone`` urgent (before the time window is applied).
 
-    Vectorised :func:`ventsup.drivers.supervisor.urgent_zones`, in its order of
+    Vectorised :func:`ventsup.core.urgency.urgent_zones`, in its order of
     rules; zones with the same limits or openings share the work through ``cache``.
     """
     outdoor = config.outdoor

@@ -18,8 +18,8 @@ from ventsup import __version__
 from ventsup.config.model import SiteConfig
 from ventsup.core.decide import decide, initial_state
 from ventsup.core.inputs import Held, ZoneInputs, hold, read_point, zone_inputs
-from ventsup.core.layers.protection import angle_between
 from ventsup.core.state import Decision, OverrideRequest, ZoneState
+from ventsup.core.urgency import urgent_zones
 from ventsup.drivers.messages import (
     OverrideRefused,
     Topics,
@@ -42,7 +42,11 @@ from ventsup.edges.mqtt import (
     Subscribed,
 )
 
-__all__ = ["Publisher", "Supervisor", "urgent_zones"]
+__all__ = [
+    "Publisher",
+    "Supervisor",
+    "urgent_zones",
+]  # urgent_zones re-exported from ventsup.core.urgency
 
 _log = logging.getLogger("ventsup.service")
 
@@ -51,65 +55,6 @@ _LOG_EVERY = 60.0
 # Records kept in memory while the ledger cannot be written, before they are dropped.
 _MAX_UNWRITTEN = 100_000
 _PRUNE_EVERY = 86400.0
-
-
-# --------------------------------------------------------------------------- urgency
-
-
-def _wind_band(config: SiteConfig, zone: str, speed: float) -> int:
-    """How many of the zone's wind limits and reopen levels ``speed`` [m/s] is above."""
-    wind = config.rules_for(zone).wind
-    limits = {
-        wind.cap_above,
-        wind.close_above,
-        wind.windward_cap_above if wind.windward_cap_above is not None else wind.cap_above,
-        wind.windward_close_above if wind.windward_close_above is not None else wind.close_above,
-    }
-    levels = limits | {wind.reopen_ratio * limit for limit in limits}
-    return sum(1 for level in levels if speed > level)
-
-
-def _windward(config: SiteConfig, zone: str, direction: float) -> frozenset[str]:
-    angle = config.rules_for(zone).wind.windward_angle
-    return frozenset(
-        name
-        for name, opening in config.zones[zone].openings.items()
-        if angle_between(opening.facing, direction) <= angle
-    )
-
-
-def urgent_zones(
-    config: SiteConfig, point: str, old: float | bool | None, new: float | bool
-) -> tuple[str, ...]:
-    """The zones to evaluate at once because point ``point`` went from ``old`` to ``new``.
-
-    ``old`` is None when the point was not known (never heard, or stale). A
-    smoke alarm point (for the zones that list it) or the rain point: any
-    change. The wind speed: a change across one of a zone's wind limits or
-    their reopen levels. The wind direction: a change of the zone's windward
-    openings. Any other point: none (the tick takes care of it).
-
-    >>> urgent_zones(config, "roof_rain", False, True)  # doctest: +SKIP
-    ('commons', 'classroom_east', 'studio_west')
-    """
-    if old is not None and old == new:
-        return ()
-    outdoor = config.outdoor
-    zones: list[str] = []
-    for name, zone in config.zones.items():
-        if point in zone.smoke_alarms or point == outdoor.rain:
-            zones.append(name)
-        elif point == outdoor.wind_speed:
-            if old is None or _wind_band(config, name, float(old)) != _wind_band(
-                config, name, float(new)
-            ):
-                zones.append(name)
-        elif point == outdoor.wind_direction and (
-            old is None
-            or _windward(config, name, float(old)) != _windward(config, name, float(new))
-        ):
-            zones.append(name)
-    return tuple(zones)
 
 
 def _event_kind(text: str) -> str:
