@@ -50,3 +50,32 @@ def test_describe_location_and_sensor_aggregate() -> None:
     out = describe(load_config_text(text))
     assert "Location   52.5200° N, 1.5000° W, elevation 9.1 m" in out
     assert "  temperature   t_hall, t_out (aggregate: mean)" in out
+
+
+def test_describe_daemon_section_names_broker_and_never_a_password() -> None:
+    text = SITE + (
+        "mqtt:\n"
+        "  host: broker.example.net\n"
+        "  tls: {ca_file: ca.pem}\n"
+        "  username: vents\n"
+        "  password_env: VENTS_PASSWORD\n"
+        "prefix: plant/vents\n"
+        "controller:\n"
+        "  tick: 30 s\n"
+        "  ledger: data/vents.db\n"
+    )
+    out = describe(load_config_text(text))
+    daemon = out[out.index("Daemon (ventsup run)") :].splitlines()
+    assert daemon[1].split(None, 1) == ["broker", "broker.example.net:8883, MQTT 5, TLS, CA ca.pem"]
+    assert "  password             from environment variable VENTS_PASSWORD" in daemon
+    assert "  topic prefix         plant/vents" in daemon
+    assert "  tick                 30 s" in daemon
+    assert "  ledger               data/vents.db" in daemon
+    assert "  client id            ventsup-larkfield-library" in daemon
+
+
+def test_describe_daemon_defaults() -> None:
+    out = describe(load_config_text(SITE))
+    assert "  broker               localhost:1883, MQTT 5, no TLS" in out
+    assert "  ledger               var/ventsup-larkfield-library.db" in out
+    assert "  password             none" in out

@@ -1,8 +1,9 @@
 """What ``ventsup check`` prints: the site as ventsup understood it, in the site's units.
 
 Plain text in aligned columns: the site, its points, the outdoor mapping, each
-zone with its sensors and openings, and each rule set with every value (given
-or default) in the site's display units (SI: °C, m/s, m²; IP: °F, mph, ft²).
+zone with its sensors and openings, each rule set with every value (given
+or default) in the site's display units (SI: °C, m/s, m²; IP: °F, mph, ft²),
+and the daemon's broker connection and settings (never a password).
 """
 
 from __future__ import annotations
@@ -77,7 +78,49 @@ def describe(config: SiteConfig) -> str:
 
     out += ["", "Override"]
     out += _section_rows(config.override, units, indent=2)
+
+    out += ["", "Daemon (ventsup run)"]
+    out += _table(_daemon_rows(config, units), indent=2)
     return "\n".join(out) + "\n"
+
+
+def _daemon_rows(config: SiteConfig, units: UnitSystem) -> list[list[str]]:
+    """The broker connection and the controller's settings; never a password."""
+    mqtt = config.mqtt
+    tls = mqtt.tls
+    if tls is None:
+        secure = "no TLS"
+    else:
+        secure = f"TLS, CA {tls.ca_file or 'system'}"
+        if tls.cert_file:
+            secure += f", client certificate {tls.cert_file}"
+        if tls.insecure:
+            secure += ", host name NOT checked (commissioning only)"
+    if mqtt.password_file:
+        password = f"from file {mqtt.password_file}"
+    elif mqtt.password_env:
+        password = f"from environment variable {mqtt.password_env}"
+    else:
+        password = "none"
+    rows = [
+        ["broker", f"{mqtt.host}:{mqtt.effective_port}, MQTT {mqtt.protocol}, {secure}"],
+        ["client id", config.client_id],
+        ["username", mqtt.username or "none"],
+        ["password", password],
+        ["topic prefix", config.topic_prefix],
+    ]
+    rows += [
+        [name, _value(mqtt, name, units)]
+        for name in ("keepalive", "reconnect_min", "reconnect_max", "connect_timeout")
+    ]
+    controller = config.controller
+    rows += [
+        [name, _value(controller, name, units)]
+        for name in type(controller).model_fields
+        if name != "ledger"
+    ]
+    rows.append(["ledger", config.ledger_name])
+    return rows
 
 
 def _point_row(name: str, point: Point, units: UnitSystem) -> list[str]:

@@ -691,3 +691,11 @@ class SiteConfig(_Frozen):
     def client_id(self) -> str:
         """The daemon's MQTT client id: ``mqtt.client_id`` or ``ventsup-<slug>``."""
         return self.mqtt.client_id if self.mqtt.client_id is not None else f"ventsup-{self.slug}"
+
+    @property
+    def ledger_name(self) -> str:
+        """The ledger file as configured: ``controller.ledger`` or ``var/ventsup-<slug>.db``.
+
+        Relative to the config file's folder; the daemon resolves it.
+        """
+        return self.controller.ledger or f"var/ventsup-{self.slug}.db"
