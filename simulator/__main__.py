@@ -6,14 +6,17 @@ Examples::
     python -m simulator --weather greensboro.epw --start 1990-04-01 --end 1990-05-01 --step 600
     python -m simulator --scenario drill.yaml --start 2024-07-02 --end 2024-07-03
     python -m simulator --start 2024-05-01 --end 2024-06-01 --step 600 \\
-        --what-if opening_area=0.5,1,1.5,2
+        --what-if opening_area=0.5,1,1.5,2 --out what-if/
     ventsup run site.yaml --sim-clock &      # then, against that daemon over MQTT:
     python -m simulator --site site.yaml --mqtt --start 2024-07-01 --end 2024-07-08
 
 Defaults: the demo site and building in ``config/``, synthetic weather of the
 ``humid_continental`` climate at the site's location (seed 0), one-minute
 steps. Prints the per-zone summary and the monthly free-cooling hours (or the
-what-if table); progress goes to stderr. Exit status 2 for a problem with an
+what-if table); progress goes to stderr. With ``--what-if`` and ``--out DIR``
+it also writes ``what-if.csv`` (the table: one row per value and zone, SI)
+and ``what-if.svg`` (:func:`what_if_svg`: free-cooling hours, hours above the
+comfort limit and the peak temperature against the value, a line per zone). Exit status 2 for a problem with an
 input file, with every problem listed as ``file:line key: what was expected``.
 
 With ``--mqtt [HOST:PORT]`` the decisions come from a running ``ventsup run
@@ -25,6 +28,7 @@ lock-step instead of the decision core in process (see
 from __future__ import annotations
 
 import argparse
+import math
 import sys
 from collections.abc import Sequence
 from pathlib import Path
@@ -40,6 +44,7 @@ from simulator.weather import CLIMATES, Weather, read_csv, read_epw, synthetic
 from ventsup.config import load_config
 from ventsup.config.errors import VentsupError
 from ventsup.config.model import SiteConfig
+from ventsup.edges.charts import Panel, Series, panels_svg
 
 _CONFIG = Path(__file__).resolve().parent.parent / "config"
 
@@ -66,6 +71,12 @@ def _parser() -> argparse.ArgumentParser:
         "--what-if",
         metavar="PARAMETER=V1,V2,...",
         help="opening_area=0.5,1,2 or a rule path such as free_cooling.open_above=22,23,24",
+    )
+    parser.add_argument(
+        "--out",
+        type=Path,
+        metavar="DIR",
+        help="with --what-if: write what-if.csv (the table) and what-if.svg (its chart) here",
     )
     mqtt = parser.add_argument_group(
         "over MQTT", "decide with a running `ventsup run SITE --sim-clock` instead of in process"
@@ -140,6 +151,8 @@ def main(argv: Sequence[str] | None = None) -> int:
         pd.set_option("display.max_columns", 20)
         if args.what_if and args.mqtt is not None:
             raise SimulatorError("--what-if runs in process only; leave out --mqtt")
+        if args.out is not None and not args.what_if:
+            raise SimulatorError("--out writes the what-if table and chart; give --what-if too")
         if args.mqtt is not None:
             host, port = _broker(args.mqtt)
             result, stats = run_mqtt(
@@ -173,6 +186,8 @@ def main(argv: Sequence[str] | None = None) -> int:
                 ) from None
             if not values:
                 raise SimulatorError(f"--what-if: got {args.what_if!r}, expected some values")
+            if args.out is not None:
+                _make_folder(args.out)  # before the runs, so a bad folder fails at once
             table = what_if(
                 site,
                 building,
@@ -185,6 +200,10 @@ def main(argv: Sequence[str] | None = None) -> int:
                 step=args.step,
             )
             print(table.round(2).to_string())
+            if args.out is not None:
+                title = f"{site.site.name}: what if {parameter}"
+                for path in write_what_if(table, args.out, title):
+                    print(f"wrote {path}")
             return 0
         result = run(
             site,
@@ -204,6 +223,70 @@ def main(argv: Sequence[str] | None = None) -> int:
         return 2
     _print(site, args, weather, result)
     return 0
+
+
+#: The what-if quantities charted: column, panel title, scale from zero.
+WHAT_IF_CHART = (
+    ("free_cooling_hours", "free-cooling hours [h]", True),
+    ("hours_above_comfort", "occupied hours above comfort.high [h]", True),
+    ("peak_temperature", "peak indoor temperature [°C]", False),
+)
+
+
+def what_if_svg(table: pd.DataFrame, title: str) -> str:
+    """The chart of a :func:`~simulator.loop.what_if` table as SVG text.
+
+    One panel per quantity of :data:`WHAT_IF_CHART`, one line per zone, against
+    the parameter's values in increasing order (a value given twice: its last
+    run); drawn by :func:`ventsup.edges.charts.panels_svg`.
+    """
+    parameter = str(table.index.names[0])
+    records = table.reset_index().to_dict(orient="records")
+    rows = {(float(r[parameter]), str(r["zone"])): r for r in records}
+    values = sorted({value for value, _ in rows})
+    zones = list(dict.fromkeys(zone for _, zone in rows))
+    panels = [
+        Panel(
+            name,
+            tuple(
+                Series(
+                    zone,
+                    tuple(
+                        float(rows[(value, zone)][column]) if (value, zone) in rows else math.nan
+                        for value in values
+                    ),
+                )
+                for zone in zones
+            ),
+            from_zero=zero,
+        )
+        for column, name, zero in WHAT_IF_CHART
+    ]
+    axis = (
+        "opening_area (factor on every opening's free area)"
+        if parameter == "opening_area"
+        else f"{parameter} (SI)"
+    )
+    return panels_svg(values, [f"{v:g}" for v in values], panels, title=title, x_title=axis)
+
+
+def _make_folder(folder: Path) -> None:
+    try:
+        folder.mkdir(parents=True, exist_ok=True)
+    except OSError as exc:
+        raise SimulatorError(f"--out {folder}: cannot make the folder: {exc.strerror}") from exc
+
+
+def write_what_if(table: pd.DataFrame, folder: Path, title: str) -> list[Path]:
+    """Write ``what-if.csv`` and ``what-if.svg`` of a what-if ``table`` into ``folder``."""
+    _make_folder(folder)
+    csv, svg = folder / "what-if.csv", folder / "what-if.svg"
+    try:
+        table.reset_index().to_csv(csv, index=False, lineterminator="\n")
+        svg.write_text(what_if_svg(table, title), encoding="utf-8")
+    except OSError as exc:
+        raise SimulatorError(f"--out {folder}: cannot write: {exc.strerror}") from exc
+    return [csv, svg]
 
 
 def _print(site: SiteConfig, args: argparse.Namespace, weather: Weather, result: Result) -> None:

@@ -13,7 +13,12 @@ What it writes (with ``--out DIR``; see ``docs/replay.md``):
 - ``figures.csv``: figures per zone and for the site, per variant;
 - ``comparison.csv``: the variants side by side (``--rules``, ``--sweep``);
 - ``sweep.csv`` and ``sweep.svg`` for a sweep;
-- ``report/``: the monthly report's page and tables for the replayed period.
+- ``report/``: the monthly report's page and tables for the replayed period,
+  of the first variant (the site's own rules, or a sweep's first value); with
+  several variants its page also holds them side by side (a section "Rule
+  sets side by side" or "Sweep of <key>", in the site's display units, with
+  the sweep chart inline), and each other variant's report is in
+  ``report/<variant>/``, linked from that section.
 """
 
 from __future__ import annotations
@@ -64,6 +69,7 @@ from ventsup.drivers.replay_fast import (
     plan_zones,
     replay_fast,
 )
+from ventsup.edges.html import comparison_section, variant_section
 from ventsup.edges.logs import LogError, PointLog, iso_times, read_log, write_table
 
 __all__ = [
@@ -364,7 +370,23 @@ def timeline_frame(runs: Sequence[Run], config: SiteConfig) -> pd.DataFrame:
 
 
 def _slug(name: str) -> str:
-    return re.sub(r"[^A-Za-z0-9._-]+", "-", name).strip("-") or "variant"
+    return re.sub(r"[^A-Za-z0-9._-]+", "-", name).strip("-.") or "variant"
+
+
+def _slugs(names: Sequence[str]) -> list[str]:
+    """A distinct file-name part per variant (``warmer`` and ``warmer'`` both slug to
+    ``warmer``: the second becomes ``warmer-2``)."""
+    taken: set[str] = set()
+    slugs = []
+    for name in names:
+        base = slug = _slug(name)
+        count = 1
+        while slug in taken:
+            count += 1
+            slug = f"{base}-{count}"
+        taken.add(slug)
+        slugs.append(slug)
+    return slugs
 
 
 def _local(t: float, tz: str) -> str:
@@ -460,6 +482,8 @@ def cli_replay(args: argparse.Namespace) -> int:
         return EXIT_USAGE
 
     variants: list[tuple[str, SiteConfig]] = [("site", config)]
+    sources = {"site": f"The site's own rules, from {config_path}"}
+    note = ""
     sweep = None
     try:
         for file in args.rules:
@@ -467,11 +491,19 @@ def cli_replay(args: argparse.Namespace) -> int:
             while name in {n for n, _ in variants}:
                 name += "'"
             variants.append((name, load_rules_variant(config_path, file)))
+            sources[name] = f"The site's rule sets replaced by those of {file}"
+        if args.rules:
+            note = f"The site's own rules (site) beside those of {', '.join(args.rules)}."
         if args.sweep:
             sweep = parse_sweep(args.sweep, config)
             variants, refused = sweep_variants(config_path, sweep)
+            sources = {
+                name: f"The site's rules with {sweep.label} = {name}" for name, _ in variants
+            }
+            note = f"One replay per value of {sweep.label} (--sweep {sweep.spec})."
             for problem in refused:
                 print(f"left out: {problem}", file=err)
+                note += f" Left out: {problem}."
     except ConfigError as exc:
         for problem in exc.problems:
             print(problem, file=err)
@@ -564,7 +596,9 @@ def cli_replay(args: argparse.Namespace) -> int:
         print(text_table(table), file=out)
     if args.out:
         try:
-            written = _write(args, config, log, replays, table, sweep, start, end)
+            written = _write(
+                args, config, log, replays, table, sweep, start, end, sources=sources, note=note
+            )
         except (VentsupError, OSError) as exc:
             print(f"ventsup replay: {exc}", file=err)
             return EXIT_FAILED
@@ -591,14 +625,18 @@ def _write(
     sweep: Any,
     start: float,
     end: float,
+    *,
+    sources: Mapping[str, str],
+    note: str,
 ) -> list[Path]:
     folder = Path(args.out)
     folder.mkdir(parents=True, exist_ok=True)
     suffix = ".parquet" if args.format == "parquet" else ".csv"
     written: list[Path] = []
     figures = []
-    for replayed in replays:
-        name = "timeline" if len(replays) == 1 else f"timeline-{_slug(replayed.name)}"
+    slugs = _slugs([replayed.name for replayed in replays])
+    for replayed, slug in zip(replays, slugs, strict=True):
+        name = "timeline" if len(replays) == 1 else f"timeline-{slug}"
         written.append(
             write_table(timeline_frame(replayed.runs, replayed.config), folder / f"{name}{suffix}")
         )
@@ -608,6 +646,7 @@ def _write(
     written.append(write_table(pd.concat(figures, ignore_index=True), folder / "figures.csv"))
     if table is not None:
         written.append(write_table(table.reset_index(), folder / "comparison.csv"))
+    chart = ""
     if sweep is not None:
         rows = []
         for replayed in replays:
@@ -617,20 +656,51 @@ def _write(
         sweep_table = pd.DataFrame(rows)
         written.append(write_table(sweep_table, folder / "sweep.csv"))
         svg = folder / "sweep.svg"
-        svg.write_text(
-            sweep_svg(sweep_table, sweep.label, f"{config.site.name}: sweep of {sweep.label}"),
-            encoding="utf-8",
-        )
+        title = f"{config.site.name}: sweep of {sweep.label}"
+        svg.write_text(sweep_svg(sweep_table, sweep.label, title), encoding="utf-8")
         written.append(svg)
-    if not args.no_report:
-        written.extend(_report(replays[0], log, start, end, folder / "report"))
-    return written
+        chart = sweep_svg(sweep_table, sweep.label, title, chart_id="chart-sweep")
+    if args.no_report:
+        return written
+    report = folder / "report"
+    if table is None:
+        return written + _report(replays[0], log, start, end, report)
+    # The other variants first: the first variant's page links to theirs.
+    page = _page_name(config, start, end)
+    links: dict[str, str] = {}
+    others: list[Path] = []
+    for replayed, slug in zip(replays[1:], slugs[1:], strict=True):
+        back = variant_section(
+            replayed.name, what=sources.get(replayed.name, replayed.name), comparison=f"../{page}"
+        )
+        paths = _report(replayed, log, start, end, report / slug, [back])
+        if paths:
+            links[replayed.name] = paths[0].relative_to(report).as_posix()
+        others += paths
+    heading = f"Sweep of {sweep.label}" if sweep is not None else "Rule sets side by side"
+    section = comparison_section(
+        table, config, heading=heading, shown=replays[0].name, links=links, chart=chart, note=note
+    )
+    return written + _report(replays[0], log, start, end, report, [section]) + others
+
+
+def _page_name(config: SiteConfig, start: float, end: float) -> str:
+    """The file name of the report page of ``start``-``end``, as
+    :func:`~ventsup.drivers.reporting.write_report` names it."""
+    from ventsup.drivers.reporting import period_between
+
+    return f"{config.slug}-{period_between(config.site.time_zone, start, end).label}.html"
 
 
 def _report(
-    replayed: Replayed, log: PointLog, start: float, end: float, folder: Path
+    replayed: Replayed,
+    log: PointLog,
+    start: float,
+    end: float,
+    folder: Path,
+    extra_sections: Sequence[str] = (),
 ) -> list[Path]:
-    """The monthly report's files for the replayed period (the first variant)."""
+    """The monthly report's files for the replayed period of one variant (its page)."""
     from ventsup.core.figures import FigureOptions
     from ventsup.drivers.reporting import write_report
 
@@ -640,6 +710,12 @@ def _report(
     ticks = [p.times for p in replayed.plans.values() if len(p) > 1]
     tick = float(min(float(pd.Series(t).diff().median()) for t in ticks)) if ticks else 60.0
     paths = write_report(
-        replayed.config, frame, start, end, folder, options=FigureOptions(tick=tick)
+        replayed.config,
+        frame,
+        start,
+        end,
+        folder,
+        options=FigureOptions(tick=tick),
+        extra_sections=extra_sections,
     )
     return [paths.html]

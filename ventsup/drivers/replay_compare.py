@@ -8,7 +8,7 @@
 - :func:`zone_figures` and :func:`site_figures` turn replay results into
   figures per zone and for the site; :func:`comparison` lays several
   variants side by side; :func:`text_table` prints a table for the terminal
-  and :func:`sweep_svg` draws the sweep.
+  and :func:`sweep_svg` draws the sweep (with :mod:`ventsup.edges.charts`).
 - :func:`report_frame` gives the decisions table the monthly report reads,
   one row per evaluation.
 
@@ -24,7 +24,6 @@ import math
 import re
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass, replace
-from html import escape
 from pathlib import Path
 from typing import Any
 
@@ -42,6 +41,7 @@ from ventsup.core.horizon import zone_features
 from ventsup.core.state import Cause, Mode
 from ventsup.drivers.replay import Run
 from ventsup.drivers.replay_fast import ZonePlan, ZoneResult, align
+from ventsup.edges.charts import Panel, Series, panels_svg
 from ventsup.edges.logs import PointLog
 
 __all__ = [
@@ -377,76 +377,23 @@ _SERIES = (
 )
 
 
-def sweep_svg(table: pd.DataFrame, label: str, title: str) -> str:
+def sweep_svg(table: pd.DataFrame, label: str, title: str, *, chart_id: str | None = None) -> str:
     """A self-contained SVG: one small chart per figure against the swept value.
 
     ``table`` has one row per value: a ``value`` column (as written, with its
-    unit) and the site figures.
+    unit) and the site figures. Drawn by :func:`ventsup.edges.charts.panels_svg`;
+    ``chart_id`` names the ``svg`` element when it sits inline in a page.
     """
-    width, panel_h, left, top = 640, 140, 70, 56
     values = [str(v) for v in table["value"]]
     numbers = []
     for text in values:
         found = _AMOUNT.match(text)
         numbers.append(float(found.group(1)) if found else math.nan)
-    x_lo, x_hi = min(numbers), max(numbers)
-    span = (x_hi - x_lo) or 1.0
-    inner_w = width - left - 30
-    height = top + len(_SERIES) * (panel_h + 30) + 30
-    parts = [
-        f'<svg xmlns="http://www.w3.org/2000/svg" width="{width}" height="{height}" '
-        f'viewBox="0 0 {width} {height}" font-family="sans-serif" font-size="12">',
-        f"<title>{escape(title)}</title>",
-        f'<text x="{left}" y="22" font-size="15">{escape(title)}</text>',
+    panels = [
+        Panel(name, (Series(name, tuple(float(v) for v in table[column]), colour),))
+        for column, name, colour in _SERIES
     ]
-    for number, (column, name, colour) in enumerate(_SERIES):
-        y0 = top + number * (panel_h + 30)
-        ys = [float(v) for v in table[column]]
-        y_lo, y_hi = min(0.0, *ys), max(ys) if max(ys) > 0 else 1.0
-        top_of_scale = y_hi * 1.1
-        y_span = (top_of_scale - y_lo) or 1.0
-
-        def px(x: float) -> float:
-            return left + (x - x_lo) / span * inner_w
-
-        def py(y: float, y0: float = y0, y_lo: float = y_lo, y_span: float = y_span) -> float:
-            return y0 + panel_h - (y - y_lo) / y_span * panel_h
-
-        parts.append(
-            f'<rect x="{left}" y="{y0}" width="{inner_w}" height="{panel_h}" fill="none" '
-            'stroke="#999"/>'
-        )
-        parts.append(
-            f'<text x="{left}" y="{y0 - 6}" fill="{colour}">{escape(name)} '
-            f"(max {_cell(y_hi)})</text>"
-        )
-        parts.append(
-            f'<text x="{left - 6}" y="{y0 + panel_h}" text-anchor="end">{_cell(y_lo)}</text>'
-        )
-        parts.append(
-            f'<text x="{left - 6}" y="{py(y_hi) + 4:.1f}" text-anchor="end">{_cell(y_hi)}</text>'
-        )
-        points = " ".join(f"{px(x):.1f},{py(y):.1f}" for x, y in zip(numbers, ys, strict=True))
-        parts.append(
-            f'<polyline points="{points}" fill="none" stroke="{colour}" stroke-width="2"/>'
-        )
-        for x, y, text in zip(numbers, ys, values, strict=True):
-            parts.append(
-                f'<circle cx="{px(x):.1f}" cy="{py(y):.1f}" r="3" fill="{colour}">'
-                f"<title>{escape(text)}: {_cell(y)}</title></circle>"
-            )
-    bottom = top + len(_SERIES) * (panel_h + 30) - 12
-    for x, text in zip(numbers, values, strict=True):
-        parts.append(
-            f'<text x="{left + (x - x_lo) / span * inner_w:.1f}" y="{bottom}" '
-            f'text-anchor="middle" font-size="10">{escape(text)}</text>'
-        )
-    parts.append(
-        f'<text x="{left + inner_w / 2}" y="{height - 8}" text-anchor="middle">'
-        f"{escape(label)}</text>"
-    )
-    parts.append("</svg>")
-    return "\n".join(parts) + "\n"
+    return panels_svg(numbers, values, panels, title=title, x_title=label, chart_id=chart_id)
 
 
 # --------------------------------------------------------------------------- report

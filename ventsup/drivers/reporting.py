@@ -271,6 +271,7 @@ def write_report(
     *,
     options: FigureOptions | None = None,
     generated: str | None = None,
+    extra_sections: Sequence[str] = (),
 ) -> ReportPaths:
     """Compute the figures of ``start <= t < end`` and write the report files.
 
@@ -294,6 +295,10 @@ def write_report(
         Adaptive model, coverage threshold, ...
     generated : str, optional
         Footer text; default says when and by which ventsup.
+    extra_sections : sequence of str, optional
+        HTML of further sections for the page (see
+        :func:`ventsup.edges.html.render_report`), such as the rule sets
+        side by side of a replay.
 
     Returns
     -------
@@ -302,7 +307,7 @@ def write_report(
     """
     figures = compute_figures(frame, config, start, end, events=events, options=options)
     period = period_between(config.site.time_zone, start, end)
-    return _write_figures(config, figures, period, Path(out_dir), generated)
+    return _write_figures(config, figures, period, Path(out_dir), generated, extra_sections)
 
 
 def _generated_by() -> str:
@@ -313,7 +318,12 @@ def _generated_by() -> str:
 
 
 def _write_figures(
-    config: SiteConfig, figures: Figures, period: Period, out_dir: Path, generated: str | None
+    config: SiteConfig,
+    figures: Figures,
+    period: Period,
+    out_dir: Path,
+    generated: str | None,
+    extra_sections: Sequence[str] = (),
 ) -> ReportPaths:
     base = _base(config, period, out_dir)
     tables = figures.tables()
@@ -345,6 +355,7 @@ def _write_figures(
         config,
         period_label=period.title,
         generated=generated if generated is not None else _generated_by(),
+        extra_sections=extra_sections,
     )
     _write_text(paths.html, page)
     return paths

@@ -12,7 +12,9 @@ are written in, with °F beside them for an IP site. The print style sheet
 fits A4 and Letter (the reader's paper size; margins only), keeps a white
 background, and starts each main section on a new page.
 
-Sections, in order: summary, hours by mode (one bar chart per zone),
+Sections, in order: the data-quality note, any extra sections the caller
+gives (``ventsup replay`` adds :func:`comparison_section`, rule sets side by
+side or a sweep, or :func:`variant_section`), summary, hours by mode (one bar chart per zone),
 temperatures with the opening overlaid (one chart per zone), opening by hour
 and day (one heat map per zone), hours closed for wind (a wind rose), alarms
 overrides and faults, actuator moves, controller offline, data coverage,
@@ -23,7 +25,7 @@ from __future__ import annotations
 
 import html
 import math
-from collections.abc import Callable, Sequence
+from collections.abc import Callable, Mapping, Sequence
 from dataclasses import dataclass
 from datetime import datetime
 from zoneinfo import ZoneInfo
@@ -37,7 +39,13 @@ from ventsup.core import physics
 from ventsup.core.figures import CAUSES, COMPASS, SITE, WIND_SPEED_EDGES, Figures
 from ventsup.demo import CAUTIONS
 
-__all__ = ["MODE_COLOURS", "chart_ids", "render_report"]
+__all__ = [
+    "MODE_COLOURS",
+    "chart_ids",
+    "comparison_section",
+    "render_report",
+    "variant_section",
+]
 
 #: Fill colour of each mode in the charts, and of time without decisions.
 MODE_COLOURS: dict[str, str] = {
@@ -205,6 +213,7 @@ def render_report(
     period_label: str,
     generated: str = "",
     cautions: Sequence[str] = CAUTIONS,
+    extra_sections: Sequence[str] = (),
 ) -> str:
     """The report page for ``figures`` as HTML text.
 
@@ -220,6 +229,10 @@ def render_report(
         When and by what the page was made, printed in the footer.
     cautions : sequence of str
         The safety cautions printed at the end (default: ventsup's own).
+    extra_sections : sequence of str
+        HTML of further sections, placed as given after the data-quality note
+        and before the summary (such as :func:`comparison_section`); the
+        caller escapes what they hold.
     """
     units = _Units(config.site.units)
     tz = ZoneInfo(figures.time_zone)
@@ -236,6 +249,7 @@ def render_report(
         f"Adaptive comfort: {_esc(figures.adaptive_model)}.</p>",
         "</header>",
         _flags_section(figures),
+        *extra_sections,
         _summary_section(figures, config, units, period_label),
         _modes_section(figures),
         _temperature_section(figures, config, units),
@@ -295,6 +309,7 @@ svg text { font-family: inherit; fill: #1f2328; }
 .rose figure { flex: 0 1 460px; }
 .rose table { flex: 1 1 260px; width: auto; }
 .cautions { border-left: 4px solid #b3261e; padding: .3rem .9rem; }
+#comparison-chart svg { max-width: 720px; }
 footer { margin-top: 2rem; color: #5b636e; font-size: .85rem; }
 @media print {
   @page { margin: 14mm 12mm; }
@@ -1139,4 +1154,122 @@ def _safety_section(cautions: Sequence[str]) -> str:
     items = "".join(f"<li>{_esc(line)}</li>" for line in cautions)
     return (
         f'<section id="safety" class="cautions"><h2>Safety cautions</h2><ul>{items}</ul></section>'
+    )
+
+
+# --------------------------------------------------------------------------- rule sets
+
+
+#: Rows of the side-by-side table: figure -> (label, kind); kind picks the unit.
+_COMPARISON_ROWS = {
+    "hours": ("Time replayed", "hours"),
+    "free_cooling_hours": ("Free cooling", "hours"),
+    "open_hours": ("Openings commanded open", "hours"),
+    "above_comfort_hours": ("Indoor temperature above comfort.high", "hours"),
+    "peak_temp_indoor_c": ("Highest indoor temperature", "temp"),
+    "moves": ("Actuator moves (commanded changes)", "count"),
+    "evaluations": ("Evaluations of the rules (zone-steps)", "count"),
+    "decisions": ("Calls of the decision core", "count"),
+}
+_CLOSED_LABELS = {
+    **_CAUSE_LABELS,
+    "comfort": "Comfort rules (no free cooling called for)",
+    "actuator_care": "Actuator care (minimum times, move limit)",
+}
+
+
+def _comparison_row(figure: str, units: _Units) -> tuple[str, Callable[[float], str]]:
+    """Label (with the unit) and how to show a value of one figure of the replay."""
+    if figure.startswith("closed_") and figure.endswith("_hours"):
+        cause = figure.removeprefix("closed_").removesuffix("_hours")
+        label, kind = f"All openings closed: {_CLOSED_LABELS.get(cause, cause)}", "hours"
+    else:
+        label, kind = _COMPARISON_ROWS.get(figure, (figure, "number"))
+    if kind == "hours":
+        return f"{label} [h]", lambda v: _number(v, 1)
+    if kind == "temp":
+        return f"{label} [{units.temp_unit}]", lambda v: _number(units.temp(v), 1)
+    if kind == "count":
+        return label, lambda v: _number(v, 0)
+    return label, lambda v: _number(v, 2)
+
+
+def comparison_section(
+    table: pd.DataFrame,
+    config: SiteConfig,
+    *,
+    heading: str,
+    shown: str,
+    links: Mapping[str, str] | None = None,
+    chart: str = "",
+    note: str = "",
+) -> str:
+    """A report section with several replays of one site side by side.
+
+    Parameters
+    ----------
+    table : DataFrame
+        One row per figure (index: the figure's name, as in
+        ``ventsup.drivers.replay_compare.comparison``; values SI), one column
+        per rule set or swept value.
+    config : SiteConfig
+        The site (display units).
+    heading : str
+        The section's title, e.g. ``"Rule sets side by side"``.
+    shown : str
+        The column whose figures the rest of the page shows.
+    links : mapping of str to str, optional
+        Column -> address of that column's own report page.
+    chart : str, optional
+        SVG text shown above the table (a sweep chart).
+    note : str, optional
+        A sentence printed under the heading.
+    """
+    units = _Units(config.site.units)
+    links = links or {}
+    columns = [str(c) for c in table.columns]
+    head = []
+    for column in columns:
+        name = _esc(column)
+        if column in links:
+            name = f'<a href="{_esc(links[column])}">{name}</a>'
+        if column == shown:
+            name += " (this page)"
+        head.append(f'<th class="num" data-column="{_esc(column)}">{name}</th>')
+    lines = [
+        '<section id="comparison">',
+        f"<h2>{_esc(heading)}</h2>",
+        f'<p class="note">{_esc(note)}</p>' if note else "",
+        '<p class="note">Whole site: hours summed over the zones (zone-hours); the highest '
+        "temperature of any zone. A replay keeps the logged temperatures (the windows did what "
+        "they did when the log was made), so the temperature figures differ between rule sets "
+        f"only through comfort.high. The rest of this page shows {_esc(shown)}"
+        + ("; each other column's own report is linked from its name." if links else ".")
+        + "</p>",
+        f'<figure id="comparison-chart">{chart}</figure>' if chart else "",
+        f'<table id="comparison-table"><thead><tr><th>Figure</th>{"".join(head)}</tr></thead>'
+        "<tbody>",
+    ]
+    for figure, row in table.iterrows():
+        label, show = _comparison_row(str(figure), units)
+        cells = "".join(f'<td class="num">{_esc(show(float(v)))}</td>' for v in row.to_numpy())
+        lines.append(f'<tr data-figure="{_esc(figure)}"><td>{_esc(label)}</td>{cells}</tr>')
+    lines.append("</tbody></table></section>")
+    return "".join(lines)
+
+
+def variant_section(name: str, *, what: str, comparison: str | None = None) -> str:
+    """A short section naming which rules a replay's page shows.
+
+    ``what`` says where the rules came from (a file, a swept value);
+    ``comparison`` is the address of the page with every variant side by side.
+    """
+    back = (
+        f' Every variant side by side: <a href="{_esc(comparison)}">the comparison</a>.'
+        if comparison
+        else ""
+    )
+    return (
+        f'<section id="variant"><h2>Rules replayed: {_esc(name)}</h2>'
+        f"<p>{_esc(what)}.{back}</p></section>"
     )
