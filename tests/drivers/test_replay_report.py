@@ -144,6 +144,10 @@ def check_table(page: Comparison, csv: pd.DataFrame, *, ip: bool) -> None:
             expected = float(value)
             if figure == "peak_temp_indoor_c" and ip:
                 expected = expected * 9.0 / 5.0 + 32.0
+            if figure == "cooling_kwh" and ip:
+                # ton of refrigeration = 12 000 Btu/h, 1 Btu/h = 0.29307107 W (ASHRAE
+                # Handbook—Fundamentals, unit conversions): ton·h = kWh / 3.5168528
+                expected = expected / (12_000 * 0.29307107 / 1000.0)
             shown = shown_number(text)
             # half a unit of the last digit shown
             assert abs(shown - expected) <= 0.5 * 10.0 ** -digits_of(figure) + 1e-9, (
@@ -225,6 +229,29 @@ def test_each_variant_report_has_its_own_figures(rules_out: Path) -> None:
             assert totals[name].loc[zone, column] == pytest.approx(
                 mine.loc[zone, "free_cooling_hours"], abs=1 / 60 + 1e-9
             ), (name, zone)
+
+
+def test_cooling_delivered_in_the_comparison_is_each_variants_report(rules_out: Path) -> None:
+    """The replay computes cooling delivered zone by zone; each variant's report computes it
+    over all zones at once (the report's own path): the same kWh per zone and for the site."""
+    report = rules_out / "report"
+    pages = {"site": report / PAGE, "warmer": report / "warmer" / PAGE}
+    figures = pd.read_csv(rules_out / "figures.csv")
+    comparison = pd.read_csv(rules_out / "comparison.csv", index_col="figure")
+    for name, page in pages.items():
+        totals = zone_totals(page)
+        mine = figures[figures["rules"] == name].set_index("zone")
+        for zone in [*load_config(DEMO).zones, "(site)"]:
+            assert mine.loc[zone, "cooling_kwh"] == pytest.approx(
+                totals.loc[zone, "cooling_kwh"], rel=1e-9
+            ), (name, zone)
+        assert comparison.loc["cooling_kwh", name] == pytest.approx(
+            totals.loc["(site)", "cooling_kwh"], rel=1e-9
+        )
+    # the warmer hall opens later: less cooling delivered
+    assert comparison.loc["cooling_kwh", "warmer"] < comparison.loc["cooling_kwh", "site"]
+    labels = read_page(report / PAGE).labels
+    assert labels["cooling_kwh"] == "Cooling delivered (estimate) [kWh]"
 
 
 def test_one_variant_has_no_comparison_section(tmp_path: Path) -> None:

@@ -53,6 +53,8 @@ from ventsup.drivers.replay import (
 )
 from ventsup.drivers.replay_compare import (
     comparison,
+    cooling_delivered,
+    evaluation_tick,
     load_rules_variant,
     parse_sweep,
     report_frame,
@@ -330,7 +332,8 @@ def replay_site(
             indoor = indoor_figures(config, zone, log, plans[zone], end)
             results.append(ZoneResult(zone, zone_runs, count, count, indoor))
     replayed = Replayed(name, config, plans, results, time.perf_counter() - began)
-    replayed.figures = site_figures(results, start, end)
+    cooling = cooling_delivered(config, log, plans, results, start, end, evaluation_tick(plans))
+    replayed.figures = site_figures(results, start, end, cooling)
     return replayed
 
 
@@ -707,8 +710,7 @@ def _report(
     frame = report_frame(replayed.config, log, replayed.plans, replayed.results)
     if frame.empty:
         return []
-    ticks = [p.times for p in replayed.plans.values() if len(p) > 1]
-    tick = float(min(float(pd.Series(t).diff().median()) for t in ticks)) if ticks else 60.0
+    tick = evaluation_tick(replayed.plans)
     paths = write_report(
         replayed.config,
         frame,

@@ -36,7 +36,7 @@ from ventsup.config.errors import ConfigError, ConfigProblem
 from ventsup.config.load import translate
 from ventsup.config.model import SiteConfig
 from ventsup.config.source import SourceMap, parse_yaml
-from ventsup.core.figures import FACTS, SITE
+from ventsup.core.figures import FACTS, SITE, FigureOptions, compute_figures
 from ventsup.core.horizon import zone_features
 from ventsup.core.state import Cause, Mode
 from ventsup.drivers.replay import Run
@@ -48,6 +48,8 @@ __all__ = [
     "FIGURES",
     "Sweep",
     "comparison",
+    "cooling_delivered",
+    "evaluation_tick",
     "load_rules_variant",
     "parse_sweep",
     "report_frame",
@@ -65,6 +67,7 @@ FIGURES: Mapping[str, str] = {
     "open_hours": "time with openings commanded open (the HVAC interlock output) [h]",
     "above_comfort_hours": "time with the indoor temperature above comfort.high [h]",
     "peak_temp_indoor_c": "highest indoor temperature [°C]",
+    "cooling_kwh": "sensible cooling delivered by outdoor air, the report's estimate [kWh]",
     "moves": "commanded target changes of the openings (after the first command)",
     "evaluations": "evaluations of the core's rules (zone-steps)",
     "decisions": "calls of the decision core",
@@ -266,9 +269,14 @@ def _moves(runs: Sequence[Run]) -> int:
     return moves
 
 
-def zone_figures(result: ZoneResult, start: float, end: float) -> dict[str, Any]:
+def zone_figures(
+    result: ZoneResult, start: float, end: float, cooling_kwh: float = math.nan
+) -> dict[str, Any]:
     """The figures of one zone (see :data:`FIGURES`), plus ``closed_<cause>_hours``:
-    time with every opening commanded closed, by the cause of the decision."""
+    time with every opening commanded closed, by the cause of the decision.
+
+    ``cooling_kwh`` is the zone's cooling delivered (:func:`cooling_delivered`),
+    NaN when not computed."""
     runs = result.runs
     hours = {"free_cooling": 0.0, "open": 0.0}
     closed = dict.fromkeys(_CLOSED_CAUSES, 0.0)
@@ -290,6 +298,7 @@ def zone_figures(result: ZoneResult, start: float, end: float) -> dict[str, Any]
         "open_hours": hours["open"],
         "above_comfort_hours": result.indoor.above_hours,
         "peak_temp_indoor_c": math.nan if peak is None else peak,
+        "cooling_kwh": cooling_kwh,
         "moves": _moves(runs),
         "evaluations": result.evaluations,
         "decisions": result.decisions,
@@ -298,17 +307,31 @@ def zone_figures(result: ZoneResult, start: float, end: float) -> dict[str, Any]
     return row
 
 
-def site_figures(results: Sequence[ZoneResult], start: float, end: float) -> pd.DataFrame:
-    """One row per zone and a last row ``(site)``: hours, moves and counts summed over the
-    zones (zone-hours), the peak the highest of any zone."""
-    rows = [zone_figures(result, start, end) for result in results]
+def site_figures(
+    results: Sequence[ZoneResult],
+    start: float,
+    end: float,
+    cooling: Mapping[str, float] | None = None,
+) -> pd.DataFrame:
+    """One row per zone and a last row ``(site)``: hours, moves, cooling and counts summed
+    over the zones (zone-hours), the peak the highest of any zone.
+
+    ``cooling`` maps a zone to its cooling delivered [kWh] (:func:`cooling_delivered`).
+    """
+    cooling = cooling or {}
+    rows = [
+        zone_figures(result, start, end, cooling.get(result.zone, math.nan)) for result in results
+    ]
     frame = pd.DataFrame(rows)
     if frame.empty:
         return frame
     total: dict[str, Any] = {"zone": SITE}
     for column in frame.columns[1:]:
         values = frame[column]
-        total[column] = values.max() if column == "peak_temp_indoor_c" else values.sum()
+        if column == "peak_temp_indoor_c":
+            total[column] = values.max()
+        else:  # a zone without an estimate leaves the site's total unknown
+            total[column] = values.sum(skipna=False)
     return pd.concat([frame, pd.DataFrame([total])], ignore_index=True)
 
 
@@ -478,3 +501,43 @@ def report_frame(
         return pd.DataFrame()
     frame = pd.concat(frames, ignore_index=True)
     return frame.sort_values(["t"], kind="stable", ignore_index=True)
+
+
+def cooling_delivered(
+    config: SiteConfig,
+    log: PointLog,
+    plans: Mapping[str, ZonePlan],
+    results: Sequence[ZoneResult],
+    start: float,
+    end: float,
+    tick: float,
+) -> dict[str, float]:
+    """Each zone's sensible cooling delivered [kWh]: the monthly report's estimate.
+
+    The same computation as the report's (:func:`ventsup.core.figures.compute_figures`
+    over :func:`report_frame`: airflow through the commanded openings from their
+    geometry and the logged temperatures), one zone at a time so that memory
+    stays that of one zone's evaluations. NaN for a zone with no evaluations.
+    """
+    cooling: dict[str, float] = {}
+    options = FigureOptions(tick=tick)
+    for result in results:
+        frame = report_frame(config, log, {result.zone: plans[result.zone]}, [result])
+        value = math.nan
+        if not frame.empty:
+            totals = compute_figures(frame, config, start, end, options=options).totals
+            row = totals[totals["zone"] == result.zone]
+            if len(row):
+                value = float(row["cooling_kwh"].iloc[0])
+        cooling[result.zone] = value
+    return cooling
+
+
+def evaluation_tick(plans: Mapping[str, ZonePlan]) -> float:
+    """The tick of the evaluations [s]: the shortest of the zones' median spacings (60 s
+    when no zone has two evaluations). The report weights a decision by the time to
+    the next one, capped at twice this."""
+    ticks = [plan.times for plan in plans.values() if len(plan) > 1]
+    if not ticks:
+        return 60.0
+    return float(min(float(np.median(np.diff(times))) for times in ticks))

@@ -1167,6 +1167,7 @@ _COMPARISON_ROWS = {
     "open_hours": ("Openings commanded open", "hours"),
     "above_comfort_hours": ("Indoor temperature above comfort.high", "hours"),
     "peak_temp_indoor_c": ("Highest indoor temperature", "temp"),
+    "cooling_kwh": ("Cooling delivered (estimate)", "energy"),
     "moves": ("Actuator moves (commanded changes)", "count"),
     "evaluations": ("Evaluations of the rules (zone-steps)", "count"),
     "decisions": ("Calls of the decision core", "count"),
@@ -1189,6 +1190,8 @@ def _comparison_row(figure: str, units: _Units) -> tuple[str, Callable[[float], 
         return f"{label} [h]", lambda v: _number(v, 1)
     if kind == "temp":
         return f"{label} [{units.temp_unit}]", lambda v: _number(units.temp(v), 1)
+    if kind == "energy":
+        return f"{label} [{units.energy_unit}]", lambda v: _number(units.energy(v), 1)
     if kind == "count":
         return label, lambda v: _number(v, 0)
     return label, lambda v: _number(v, 2)
