@@ -62,12 +62,23 @@ TICK = "tick"
 
 @dataclass(frozen=True)
 class Evaluation:
-    """One evaluation of one zone: when, what triggered it, and an operator request with it."""
+    """One evaluation of one zone: when, what triggered it, and an operator request with it.
+
+    ``held`` is how many of the replay's samples, in the order given, the
+    evaluation had seen (a recording says so: the daemon handles one message
+    at a time); None for the rule of logs, every sample stamped at or before
+    ``t``. Give it for every evaluation of a replay or for none.
+    """
 
     t: float
     zone: str
     trigger: str = TICK
     request: OverrideRequest | None = None
+    held: int | None = None
+
+    def __post_init__(self) -> None:
+        if self.held is not None and self.held < 0:
+            raise ValueError(f"held must be a count of samples (0 or more), got {self.held}")
 
 
 def tick_times(start: float, end: float, step: float) -> list[float]:
@@ -146,18 +157,33 @@ def replay_evaluations(
 ) -> Iterator[tuple[Decision, str]]:
     """The per-step reference: hold, read and decide at each evaluation, in order.
 
-    ``samples`` sorted by time; ``evaluations`` in time order. Yields each
-    decision with its trigger. ``progress`` gets the share done (0-1) after
-    every evaluation when ``total`` (the number of evaluations) is given.
+    ``samples`` sorted by time; ``evaluations`` in time order. An evaluation
+    with a ``held`` count holds the first ``held`` samples instead of those
+    stamped at or before its time: then ``samples`` are in the order the
+    counts refer to (a recording's: :meth:`~ventsup.edges.logs.PointLog.samples`
+    of its log gives it, unless a recorded time goes back), and the counts
+    never decrease. Yields each decision with its trigger. ``progress`` gets
+    the share done (0-1) after every evaluation when ``total`` (the number of
+    evaluations) is given.
     """
     held = Held()
     states: dict[str, ZoneState] = {zone: initial_state() for zone in config.zones}
     index = 0
     for done, evaluation in enumerate(evaluations, start=1):
         t = evaluation.t
-        while index < len(samples) and samples[index].t <= t:
-            held = hold(held, samples[index])
-            index += 1
+        if evaluation.held is None:
+            while index < len(samples) and samples[index].t <= t:
+                held = hold(held, samples[index])
+                index += 1
+        else:
+            if evaluation.held < index or evaluation.held > len(samples):
+                raise ValueError(
+                    f"evaluation of zone {evaluation.zone!r} at t={t!r} holds "
+                    f"{evaluation.held} samples, after {index} were held, of {len(samples)}"
+                )
+            while index < evaluation.held:
+                held = hold(held, samples[index])
+                index += 1
         zone = evaluation.zone
         decision, states[zone] = decide(
             config, zone, zone_inputs(config, zone, held, t), states[zone], t, evaluation.request

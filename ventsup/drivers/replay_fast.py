@@ -3,8 +3,9 @@
 For each zone, the evaluation times (ticks and urgent evaluations, as
 :func:`ventsup.drivers.replay.evaluation_plan` makes them, or those recorded
 in a ledger) are walked in order. The samples are aligned to those times
-vectorised (sample-and-hold with staleness, as :func:`ventsup.core.inputs.read_point`),
-and :func:`ventsup.core.horizon.zone_features` gives the core's comparisons on
+vectorised (sample-and-hold with staleness, as :func:`ventsup.core.inputs.read_point`;
+for a recording, each evaluation holds the samples the daemon had handled
+before it, :attr:`ZonePlan.held`), and :func:`ventsup.core.horizon.zone_features` gives the core's comparisons on
 the inputs at every evaluation. Then, at each evaluation that must be looked at:
 
 1. If the state (:func:`~ventsup.core.horizon.state_signature`), the feature
@@ -86,12 +87,15 @@ Progress = Callable[[int], None]
 @dataclass(frozen=True, eq=False)
 class ZonePlan:
     """A zone's evaluations: their times (in order), the triggers that are not ``tick``
-    (by index), and operator requests (by index)."""
+    (by index), operator requests (by index), and, for a recording, how many of the
+    log's samples in log order each had seen (``held``; None: those stamped at or
+    before its time, see :class:`~ventsup.drivers.replay.Evaluation`)."""
 
     zone: str
     times: FloatArray
     triggers: Mapping[int, str] = field(default_factory=dict)
     requests: Mapping[int, OverrideRequest] = field(default_factory=dict)
+    held: IntArray | None = None
 
     def __post_init__(self) -> None:
         # Copies (plain dicts, so that a plan can be sent to worker processes).
@@ -107,8 +111,9 @@ class ZonePlan:
 
     def evaluations(self) -> list[Evaluation]:
         """The plan as :class:`~ventsup.drivers.replay.Evaluation` records."""
+        held = [None] * len(self) if self.held is None else self.held.tolist()
         return [
-            Evaluation(float(t), self.zone, self.trigger(i), self.requests.get(i))
+            Evaluation(float(t), self.zone, self.trigger(i), self.requests.get(i), held[i])
             for i, t in enumerate(self.times.tolist())
         ]
 
@@ -298,19 +303,35 @@ def plan_from_evaluations(
     times: dict[str, list[float]] = {zone: [] for zone in config.zones}
     triggers: dict[str, dict[int, str]] = {zone: {} for zone in config.zones}
     requests: dict[str, dict[int, OverrideRequest]] = {zone: {} for zone in config.zones}
+    held: dict[str, list[int]] = {zone: [] for zone in config.zones}
+    counted: bool | None = None
     for evaluation in evaluations:
         zone = evaluation.zone
         index = len(times[zone])
         if index and evaluation.t < times[zone][-1]:
             raise ValueError(f"evaluations of zone {zone!r} go back in time at t={evaluation.t!r}")
+        if counted is None:
+            counted = evaluation.held is not None
+        elif counted != (evaluation.held is not None):
+            raise ValueError(
+                f"the evaluation of zone {zone!r} at t={evaluation.t!r} "
+                f"{'lacks' if counted else 'has'} a count of held samples, unlike the first; "
+                "give one for every evaluation or for none"
+            )
         times[zone].append(evaluation.t)
         if evaluation.trigger != TICK:
             triggers[zone][index] = evaluation.trigger
         if evaluation.request is not None:
             requests[zone][index] = evaluation.request
+        if evaluation.held is not None:
+            held[zone].append(evaluation.held)
     return {
         zone: ZonePlan(
-            zone, np.array(times[zone], dtype=np.float64), triggers[zone], requests[zone]
+            zone,
+            np.array(times[zone], dtype=np.float64),
+            triggers[zone],
+            requests[zone],
+            np.array(held[zone], dtype=np.int64) if counted else None,
         )
         for zone in config.zones
     }
@@ -329,8 +350,20 @@ class Aligned:
     readings: dict[str, Readings]
 
 
-def align(config: SiteConfig, zone: str, log: PointLog, times: FloatArray) -> Aligned:
-    """The samples of the zone's points held at each of ``times`` (as :func:`ventsup.core.inputs.read_point`)."""
+def align(
+    config: SiteConfig,
+    zone: str,
+    log: PointLog,
+    times: FloatArray,
+    held: IntArray | None = None,
+) -> Aligned:
+    """The samples of the zone's points held at each of ``times`` (as :func:`ventsup.core.inputs.read_point`).
+
+    With ``held`` (a recording's counts, see :class:`ZonePlan`), evaluation
+    ``k`` holds the samples whose place in the log (``order``) is below
+    ``held[k]``, as :func:`~ventsup.core.inputs.hold` would in log order:
+    of each point, the latest in time (the later in the log at one time).
+    """
     series: dict[str, PointSeries] = {}
     index: dict[str, IntArray] = {}
     readings: dict[str, Readings] = {}
@@ -338,12 +371,27 @@ def align(config: SiteConfig, zone: str, log: PointLog, times: FloatArray) -> Al
         found = log.series.get(name)
         if found is None or not len(found):
             continue
-        at = np.searchsorted(found.t, times, side="right").astype(np.int64) - 1
+        if held is None:
+            at = np.searchsorted(found.t, times, side="right").astype(np.int64) - 1
+        else:
+            at = _held_at(found.order, held)
         safe = np.maximum(at, 0)
         ok = (at >= 0) & (times - found.t[safe] <= config.points[name].stale_after)
         series[name], index[name] = found, at
         readings[name] = Readings(ok, np.where(ok, found.value[safe], np.nan))
     return Aligned(series, index, readings)
+
+
+def _held_at(order: IntArray, held: IntArray) -> IntArray:
+    """Per count in ``held``: the row held among the rows with ``order`` below it, -1 if none.
+
+    Rows are sorted by (time, order), so the one :func:`~ventsup.core.inputs.hold`
+    keeps from any set of rows is the one with the highest row number.
+    """
+    by_order = np.argsort(order, kind="stable")
+    best = np.maximum.accumulate(by_order)  # the highest row among the first j in log order
+    seen = np.searchsorted(order[by_order], held, side="left")
+    return np.where(seen > 0, best[np.maximum(seen - 1, 0)], -1).astype(np.int64)
 
 
 def _indoor(
@@ -363,7 +411,7 @@ def indoor_figures(
     config: SiteConfig, zone: str, log: PointLog, plan: ZonePlan, end: float
 ) -> Indoor:
     """The zone's :class:`Indoor` figures over ``plan`` (for a replay by the reference)."""
-    aligned = align(config, zone, log, plan.times)
+    aligned = align(config, zone, log, plan.times, plan.held)
     features = zone_features(config, zone, aligned.readings, len(plan))
     return _indoor(config, zone, plan.times, end, features.temp_indoor)
 
@@ -537,7 +585,7 @@ def replay_zone(
             float(times[0]) - 1.0,
             float(times[-1]) + 1.0,
         )
-    aligned = align(config, zone, log, times)
+    aligned = align(config, zone, log, times, plan.held)
     features = zone_features(config, zone, aligned.readings, n)
     forced = _forced(config, zone, plan, features, edges)
     schedule = _Schedule(config, zone, edges)
