@@ -94,3 +94,11 @@ def test_a_ledger_without_numbers_replays_with_the_time_rule(
 def _decision(config: SiteConfig, t: float) -> Decision:
     decision, _ = decide(config, "hall", zone_inputs(config, "hall", Held(), t), initial_state(), t)
     return decision
+
+
+def test_log_order_keeps_a_recording_order_where_time_goes_back(config: SiteConfig) -> None:
+    """The per-step reference of a recording holds samples in recording order (replay_cli)."""
+    samples = [Sample("t_out", 18.0, 10.0), Sample("t_out", 19.0, 9.0), Sample("wind", 2.0, 9.5)]
+    log = PointLog.from_samples(samples, config)
+    assert log.samples(log_order=True) == samples
+    assert log.samples() == [samples[1], samples[2], samples[0]]

@@ -311,7 +311,8 @@ def replay_site(
     if not reference:
         results = replay_fast(config, log, plans, end, jobs=jobs, progress=progress)
     else:
-        samples = log.samples()
+        # A recording's evaluations count the samples handled before them in recording order.
+        samples = log.samples(log_order=recording is not None)
         if recording is not None:
             evaluations = recording.evaluations
         else:

@@ -459,7 +459,7 @@ def report_frame(
             continue
         which = np.repeat(np.arange(len(result.runs)), [run.evaluations for run in result.runs])
         runs = result.runs
-        aligned = align(config, zone, log, plan.times)
+        aligned = align(config, zone, log, plan.times, plan.held)
         features = zone_features(config, zone, aligned.readings, n)
         spec = config.zones[zone]
         outdoor = config.outdoor

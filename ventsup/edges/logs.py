@@ -148,13 +148,20 @@ class PointLog:
     def __len__(self) -> int:
         return sum(len(s) for s in self.series.values())
 
-    def samples(self) -> list[Sample]:
-        """Every sample, by time and then in log order (what the per-step replay holds)."""
+    def samples(self, *, log_order: bool = False) -> list[Sample]:
+        """Every sample, by time and then in log order (what the per-step replay holds).
+
+        With ``log_order``, in log order alone: a recording's order, in which the
+        daemon handled them even where a recorded time went back.
+        """
         keyed: list[tuple[float, int, Sample]] = []
         for series in self.series.values():
             for i in range(len(series)):
                 keyed.append((float(series.t[i]), int(series.order[i]), series.sample(i)))
-        keyed.sort(key=lambda item: (item[0], item[1]))
+        if log_order:
+            keyed.sort(key=lambda item: item[1])
+        else:
+            keyed.sort(key=lambda item: (item[0], item[1]))
         return [sample for _, _, sample in keyed]
 
     def only(self, points: Iterable[str]) -> PointLog:
