@@ -1,7 +1,7 @@
 # ventsup developer and CI entry points (GNU make).
 #
-#   make test    ruff check + pytest; what CI runs (through .ci/run)
-#   make lint    ruff check + ruff format --check + mypy (strict on the core)
+#   make test    lint, then pytest; what CI runs (through .ci/run)
+#   make lint    ruff check + ruff format --check + mypy (strict on the core and config)
 #   make venv    .venv with the project installed editable, extras [test]
 #   make broker  Debian's mosquitto and mosquitto-clients, for the broker tests
 #   make demo    run `ventsup demo`
@@ -81,8 +81,7 @@ browser:
 	fi
 
 # pytest exits with 5 when it collected no tests: say so, then fail.
-test: venv broker browser
-	$(VENV)/bin/ruff check $(LINT_PATHS)
+test: lint broker browser
 	@echo '$(PY) -m pytest'; \
 	rc=0; "$(PY)" -m pytest || rc=$$?; \
 	if [ "$$rc" -eq 5 ]; then \
