@@ -8,7 +8,9 @@ Each step of ``step`` seconds, at time t:
 2. the samples are held (:class:`~ventsup.core.inputs.Held`) and each zone is
    decided by the controller: by default :func:`ventsup.core.decide.decide`
    on :func:`ventsup.core.inputs.zone_inputs`, exactly as the daemon and the
-   replay do;
+   replay do (where the core would only repeat its last outcome, as the
+   replay's fast path shows from its comparisons, the outcome is repeated
+   without asking it: see :mod:`simulator._steps`);
 3. the actuators move toward the targets (released openings go where the
    fire system drives them, or stay);
 4. the airflow through each zone follows from the openings' mean positions
@@ -16,6 +18,11 @@ Each step of ``step`` seconds, at time t:
    the ventilation conductance, and the zone model advances to t + step, the
    ideal plant heating or cooling to its set points (the cooling set point
    rises while the decision reports the windows open: the HVAC interlock).
+
+Steps 3 and 4 run in a compiled kernel (:mod:`simulator._kernel`, numba)
+over spans of steps between decisions; it restates the formulas of
+:mod:`simulator.building` and :mod:`simulator.openings` and is tested equal
+to them to rounding.
 
 A row of the result is labelled by the start of its step: the decision taken
 at t, the positions reached by t + step, the step's mean temperatures and
@@ -58,23 +65,17 @@ import numpy as np
 import numpy.typing as npt
 import pandas as pd
 
-from simulator.building import (
-    Building,
-    ZoneModel,
-    condition_air,
-    solar_gains,
-    step_zone,
-    stratification_gradient,
-)
+from simulator import _kernel, _steps
+from simulator.building import Building, ZoneModel, solar_gains
 from simulator.errors import SimulatorError
-from simulator.openings import Airflow, OpeningModel, move_toward, ventilation_heat, zone_airflow
+from simulator.openings import OpeningModel, ventilation_heat
 from simulator.scenario import Scenario, timeline
 from simulator.solar import solar_position
 from simulator.weather import Weather, to_epoch_seconds
 from ventsup.config.model import Period, PointKind, SiteConfig
 from ventsup.core import physics, psychro
-from ventsup.core.decide import decide, initial_state
-from ventsup.core.inputs import Held, Sample, zone_inputs
+from ventsup.core.decide import decide
+from ventsup.core.inputs import Held, zone_inputs
 from ventsup.core.state import Cause, Decision, Layer, Mode, ZoneState
 
 __all__ = [
@@ -106,6 +107,9 @@ class CoreController:
     """The decision core: :func:`~ventsup.core.inputs.zone_inputs` then :func:`~ventsup.core.decide.decide`."""
 
     config: SiteConfig
+    #: In :func:`run`, repeat an outcome the core would repeat instead of asking
+    #: it again (exact; see :mod:`simulator._steps`). False: ask it every step.
+    skip_repeats: bool = True
 
     def __call__(
         self, zone: str, held: Held, state: ZoneState, t: float
@@ -176,7 +180,8 @@ class Result:
     ``wind_direction``, ``rain`` (with scripted rain), ``density``.
     ``sensors``: the value each point published (NaN: nothing published).
     ``changes``: one row whenever a zone's mode or targets change, with the
-    reason.
+    reason. ``calls``: how often the controller (or the decision core) was
+    asked, all zones together.
     """
 
     config: SiteConfig
@@ -187,6 +192,7 @@ class Result:
     sensors: pd.DataFrame
     changes: pd.DataFrame
     unsourced_points: tuple[str, ...] = ()
+    calls: int = 0
 
     def summary(self) -> pd.DataFrame:
         """Per zone: hours by use, comfort and energy.
@@ -278,19 +284,19 @@ class _Zone:
     model: ZoneModel
     openings: tuple[OpeningModel, ...]
     opening_index: tuple[int, ...]
-    gains_internal: list[float]
-    gains_solar: list[float]
-    gains_latent: list[float]
-    people: list[float]
-    co2_generation: list[float]
-    setpoint_heating: list[float]
-    setpoint_cooling: list[float]
+    gains_internal: FloatArray
+    gains_solar: FloatArray
+    gains_latent: FloatArray
+    people: FloatArray
+    co2_generation: FloatArray
+    setpoint_heating: FloatArray
+    setpoint_cooling: FloatArray
     setpoint_cooling_open: float
     max_heating: float
     max_cooling: float
-    mechanical_flow: list[float]
-    wind: list[float]
-    temp_opaque: list[float]
+    mechanical_flow: FloatArray
+    wind: FloatArray
+    temp_opaque: FloatArray
     sensor_offsets: dict[str, float] = field(default_factory=dict)
 
 
@@ -356,6 +362,28 @@ def run(
     controller = controller if controller is not None else CoreController(site_config)
     plan = _Plan(site_config, building, weather.at(times), scenario, times, names, step)
     return plan.simulate(controller, initial_temperature, progress)
+
+
+def _plan(
+    site_config: SiteConfig,
+    building: Building,
+    weather: Weather,
+    scenario: Scenario | None,
+    start: object,
+    end: object,
+    step: float,
+    zones: Sequence[str] | None = None,
+) -> _Plan:
+    """The plan :func:`run` makes (for tests that trace the loop)."""
+    tz = site_config.site.time_zone
+    times = pd.date_range(
+        _timestamp(start, tz),
+        _timestamp(end, tz),
+        freq=pd.Timedelta(seconds=step),
+        inclusive="left",
+    )
+    names = list(site_config.zones) if zones is None else list(zones)
+    return _Plan(site_config, building, weather.at(times), scenario, times, names, step)
 
 
 class _Plan:
@@ -498,21 +526,23 @@ class _Plan:
                     model=model,
                     openings=tuple(openings),
                     opening_index=tuple(range(opening_count, opening_count + len(openings))),
-                    gains_internal=internal.tolist(),
-                    gains_solar=solar.tolist(),
-                    gains_latent=(people_count * latent).tolist(),
-                    people=people_count.tolist(),
-                    co2_generation=(people_count * co2).tolist(),
-                    setpoint_heating=setpoint_heating.tolist(),
-                    setpoint_cooling=setpoint_cooling.tolist(),
+                    gains_internal=np.asarray(internal, dtype=np.float64),
+                    gains_solar=np.asarray(solar, dtype=np.float64),
+                    gains_latent=np.asarray((people_count * latent), dtype=np.float64),
+                    people=np.asarray(people_count, dtype=np.float64),
+                    co2_generation=np.asarray((people_count * co2), dtype=np.float64),
+                    setpoint_heating=np.asarray(setpoint_heating, dtype=np.float64),
+                    setpoint_cooling=np.asarray(setpoint_cooling, dtype=np.float64),
                     setpoint_cooling_open=(
                         model.cooling.setpoint_windows_open if model.cooling else math.inf
                     ),
                     max_heating=model.heating.max_power if model.heating else 0.0,
                     max_cooling=model.cooling.max_power if model.cooling else 0.0,
-                    mechanical_flow=mechanical.tolist(),
-                    wind=(station_speed / station_ratio * zone_ratio).tolist(),
-                    temp_opaque=model.opaque_exterior_temperature(temp, ground).tolist(),
+                    mechanical_flow=np.asarray(mechanical, dtype=np.float64),
+                    wind=np.asarray((station_speed / station_ratio * zone_ratio), dtype=np.float64),
+                    temp_opaque=np.asarray(
+                        model.opaque_exterior_temperature(temp, ground), dtype=np.float64
+                    ),
                     sensor_offsets={
                         sensor: height - 0.5 * model.height
                         for sensor, height in model.sensors.items()
@@ -520,9 +550,9 @@ class _Plan:
                 )
             )
             opening_count += len(openings)
-        self.temp = temp.tolist()
-        self.direction = direction.tolist()
-        self.rho_cp = (density * _SPECIFIC_HEAT_AIR).tolist()
+        self.temp = np.asarray(temp, dtype=np.float64)
+        self.direction = np.asarray(direction, dtype=np.float64)
+        self.rho_cp = np.asarray(density * _SPECIFIC_HEAT_AIR, dtype=np.float64)
         self.density = density
         self.occupied = {
             name: in_periods(local, config.rules_for(name).schedule.occupied) for name in names
@@ -634,286 +664,172 @@ class _Plan:
         controller: Controller,
         initial_temperature: float,
         progress: Callable[[float], None] | None,
+        trace: _steps.Trace | None = None,
     ) -> Result:
         """Run the step loop and collect the result.
 
-        The loop works on plain floats and lists; everything that does not
-        depend on the state was computed before (see :class:`_Plan`).
+        Everything that does not depend on the state was computed before (see
+        :class:`_Plan`); the physics runs in the compiled kernel of
+        :mod:`simulator._kernel` over spans of steps between decisions, and the
+        decision core is asked only at the steps whose outcome is not known
+        (see :mod:`simulator._steps`). ``trace`` (for tests) is told each
+        zone's state whenever the loop holds it: after each decision, and at
+        the end of each stretch of repeated outcomes.
         """
-        t_all = self.t.tolist()
-        n = len(t_all)
-        dt = self.step
         zones = self.zones
         names = [zone.name for zone in zones]
-        zone_range = range(len(zones))
-        params = [zone.model.rc_parameters() for zone in zones]
         flat_openings = [o for zone in zones for o in zone.openings]
         opening_zone = [i for i, zone in enumerate(zones) for _ in zone.openings]
-        jams: list[tuple[list[bool], list[float]] | None] = []
-        for oi, opening in enumerate(flat_openings):
-            laid = self.timeline.jams.get((names[opening_zone[oi]], opening.name))
-            jams.append(None if laid is None else (laid[0].tolist(), laid[1].tolist()))
-        opening_range = range(len(flat_openings))
-
-        mass = [initial_temperature] * len(zones)
-        air = [initial_temperature] * len(zones)
-        gradient = [0.0] * len(zones)
-        co2 = [self.building.co2_outdoor] * len(zones)
-        heating_on = [False] * len(zones)
-        position = [0.0] * len(flat_openings)
-        mean_position = [0.0] * len(flat_openings)
-        states = [initial_state() for _ in zones]
-        decisions: list[Decision] = []
-        current: dict[str, Sample] = {}
-        stuck: dict[str, float | bool] = {}
-        last_published: dict[str, float | bool] = {}
-
-        zone_rows: list[list[tuple[float, ...]]] = [[] for _ in zones]
-        decision_rows: list[list[tuple[Mode, Layer, Cause, bool]]] = [[] for _ in zones]
-        position_rows: list[list[float]] = []
-        target_rows: list[list[float]] = []
-        changes: list[tuple[float, str, str, int, str, str, str]] = []
-        last_mode: list[Mode | None] = [None] * len(zones)
-        last_targets: list[dict[str, float | None] | None] = [None] * len(zones)
-
-        static = self.static
-        faults = self.timeline.sensor_faults
-        ranges = {name: point.plausible_range for name, point in self.config.points.items()}
-        # Points without scripted faults take the fast paths; the others the general one.
-        temperature_fast = [
-            (name, zi, offset, *ranges[name])
-            for name, zi, offset in self.temperature_points
-            if name not in faults
-        ]
-        co2_fast = [(name, zi, *ranges[name]) for name, zi in self.co2_points if name not in faults]
-        heating_fast = [(name, zis) for name, zis in self.heating_points if name not in faults]
-        position_fast = [
-            (name, oi, *ranges[name]) for name, oi in self.position_points if name not in faults
-        ]
-        faulted: list[tuple[str, int, Any, float, bool, float, float, list[int], list[float]]] = []
-        sources: tuple[list[Any], ...] = (
-            self.temperature_points,
-            self.co2_points,
-            self.heating_points,
-            self.position_points,
+        kernel = self._kernel_arrays(flat_openings, opening_zone)
+        points = _steps.Points(
+            self.config,
+            self.t,
+            self.static,
+            self.static_published,
+            [
+                *(
+                    (name, _steps.TEMPERATURE, zi, offset)
+                    for name, zi, offset in self.temperature_points
+                ),
+                *((name, _steps.CO2, zi, 0.0) for name, zi in self.co2_points),
+                *((name, _steps.HEATING, zis, 0.0) for name, zis in self.heating_points),
+                *((name, _steps.POSITION, oi, 0.0) for name, oi in self.position_points),
+            ],
+            self.timeline.sensor_faults,
         )
-        for kind, points in enumerate(sources):
-            for point in points:
-                name = point[0]
-                if name in faults:
-                    low, high = ranges[name]
-                    laid_codes, laid_values = faults[name]
-                    binary = self.config.points[name].kind is PointKind.BINARY
-                    offset = point[2] if kind == 0 else 0.0
-                    faulted.append(
-                        (
-                            name,
-                            kind,
-                            point[1],
-                            offset,
-                            binary,
-                            low,
-                            high,
-                            laid_codes.tolist(),
-                            laid_values.tolist(),
-                        )
-                    )
-        faulted_rows: dict[str, list[float]] = {entry[0]: [] for entry in faulted}
-        temp_out, direction, rho_cp = self.temp, self.direction, self.rho_cp
-        co2_outdoor = self.building.co2_outdoor
-        report_every = max(1, n // 100)
-        no_flow = Airflow(0.0, 0.0, 0.0)
-
-        for k in range(n):
-            t = t_all[k]
-            # 1. publish samples
-            for name, published_values in static:
-                value = published_values[k]
-                if value is not None:
-                    current[name] = Sample(name, value, t)
-            for name, zi, offset, low, high in temperature_fast:
-                value = air[zi] + gradient[zi] * offset
-                if low <= value <= high:
-                    current[name] = Sample(name, value, t)
-            for name, zi, low, high in co2_fast:
-                value = co2[zi]
-                if low <= value <= high:
-                    current[name] = Sample(name, value, t)
-            for name, zis in heating_fast:
-                current[name] = Sample(name, any([heating_on[zi] for zi in zis]), t)
-            for name, oi, low, high in position_fast:
-                value = position[oi]
-                if low <= value <= high:
-                    current[name] = Sample(name, value, t)
-            for name, kind, source, offset, binary, low, high, codes, fault_values in faulted:
-                if kind == 0:
-                    value = air[source] + gradient[source] * offset
-                elif kind == 1:
-                    value = co2[source]
-                elif kind == 2:
-                    value = any([heating_on[zi] for zi in source])
-                else:
-                    value = position[source]
-                code = codes[k]
-                if code == 0:
-                    stuck.pop(name, None)
-                elif code == 1:  # dropout: nothing published
-                    faulted_rows[name].append(math.nan)
-                    continue
-                elif code == 2:  # stuck at the given value or the last one published
-                    if name not in stuck:
-                        given = fault_values[k]
-                        stuck[name] = (
-                            given if not math.isnan(given) else last_published.get(name, value)
-                        )
-                    value = stuck[name]
-                else:  # spike
-                    value = bool(fault_values[k]) if binary else fault_values[k]
-                if not binary and not low <= value <= high:
-                    faulted_rows[name].append(math.nan)  # the decoder would reject it
-                    continue
-                last_published[name] = value
-                current[name] = Sample(name, value, t)
-                faulted_rows[name].append(float(value))
-            held = Held(current)
-
-            # 2. decide
-            decisions = []
-            for zi in zone_range:
-                decision, states[zi] = controller(names[zi], held, states[zi], t)
-                decisions.append(decision)
-                mode, wanted = decision.mode, decision.targets
-                if mode is not last_mode[zi] or wanted != last_targets[zi]:
-                    last_mode[zi], last_targets[zi] = mode, wanted
-                    changes.append(_change(t, decision))
-                decision_rows[zi].append(
-                    (mode, decision.layer, decision.cause, decision.windows_open)
-                )
-
-            # 3. move the actuators
-            target_row: list[float] = []
-            for oi in opening_range:
-                opening = flat_openings[oi]
-                target = decisions[opening_zone[oi]].targets.get(opening.name)
-                before = position[oi]
-                if target is None:
-                    target_row.append(math.nan)
-                    target = opening.fire_system_position
-                    if target is None:
-                        target = before
-                else:
-                    target_row.append(target)
-                jam = jams[oi]
-                if jam is not None and jam[0][k]:
-                    after = before if math.isnan(jam[1][k]) else jam[1][k]
-                else:
-                    after = move_toward(before, target, dt, opening.travel_time)
-                position[oi] = after
-                mean_position[oi] = 0.5 * (before + after)
-            target_rows.append(target_row)
-            position_rows.append(position.copy())
-
-            # 4. airflow and heat
-            t_out = temp_out[k]
-            for zi in zone_range:
-                zone = zones[zi]
-                model = zone.model
-                fractions = [mean_position[oi] for oi in zone.opening_index]
-                airflow = (
-                    zone_airflow(
-                        zone.openings, fractions, air[zi], t_out, zone.wind[k], direction[k]
-                    )
-                    if any(fractions)
-                    else no_flow
-                )
-                through = airflow.total + model.infiltration_flow + zone.mechanical_flow[k]
-                gains_internal = zone.gains_internal[k]
-                gains_solar = zone.gains_solar[k]
-                step = step_zone(
-                    params[zi],
-                    mass[zi],
-                    t_out,
-                    zone.temp_opaque[k],
-                    rho_cp[k] * through,
-                    gains_internal,
-                    gains_solar,
-                    0.0,
-                    dt,
-                    air[zi],
-                )
-                cooling_at = zone.setpoint_cooling[k]
-                if decisions[zi].windows_open and cooling_at < zone.setpoint_cooling_open:
-                    cooling_at = zone.setpoint_cooling_open  # the HVAC interlock
-                if step.temp_air < zone.setpoint_heating[k] or step.temp_air > cooling_at:
-                    step = condition_air(
-                        params[zi],
-                        mass[zi],
-                        t_out,
-                        zone.temp_opaque[k],
-                        rho_cp[k] * through,
-                        gains_internal,
-                        gains_solar,
-                        zone.setpoint_heating[k],
-                        cooling_at,
-                        zone.max_heating,
-                        zone.max_cooling,
-                        dt,
-                        free=step,
-                        temp_air=air[zi],
-                    )
-                mass[zi] = step.temp_mass
-                air[zi] = step.temp_air_end
-                heating_on[zi] = step.heating > 0.0
-                equilibrium = co2_outdoor + zone.co2_generation[k] / through * 1e6
-                co2[zi] = equilibrium + (co2[zi] - equilibrium) * math.exp(
-                    -through * dt / model.volume
-                )
-                gradient[zi] = stratification_gradient(
-                    model.stratification,
-                    gains_internal + gains_solar + step.heating,
-                    through,
-                    model.volume,
-                    model.height,
-                    rho_cp[k] / _SPECIFIC_HEAT_AIR,
-                )
-                zone_rows[zi].append(
-                    (
-                        step.temp_air,
-                        step.temp_air_end,
-                        step.temp_operative,
-                        step.temp_surface,
-                        step.temp_mass,
-                        gradient[zi],
-                        airflow.total,
-                        airflow.stack,
-                        airflow.wind,
-                        step.heating,
-                        co2[zi],
-                    )
-                )
-            if progress is not None and k % report_every == 0:
-                progress(k / n)
-        if progress is not None:
-            progress(1.0)
+        skip = type(controller) is CoreController and controller.skip_repeats
+        core_config = controller.config if skip else None  # type: ignore[attr-defined]
+        outdoor = self.config.outdoor
+        rain = points.readings[outdoor.rain]
+        speed = points.readings[outdoor.wind_speed]
+        loop = _steps.Loop(
+            self.config,
+            core_config,
+            controller,
+            type(controller) is FixedController,
+            self.t,
+            self.step,
+            kernel,
+            points,
+            names,
+            [zone.opening_index for zone in zones],
+            self._dependents(opening_zone),
+            initial_temperature,
+            ~rain.ok | (rain.value == 1.0),
+            np.where(speed.ok, speed.value, np.inf),
+            trace,
+        )
+        loop.run(progress)
+        self.decide_calls = loop.calls
         return self._result(
-            zone_rows,
-            decision_rows,
-            np.asarray(target_rows, dtype=np.float64).reshape(n, len(flat_openings)),
-            np.asarray(position_rows, dtype=np.float64).reshape(n, len(flat_openings)),
-            faulted_rows,
-            changes,
+            loop.zone_rows,
+            loop.outcomes,
+            loop.target_rows,
+            loop.position_rows,
+            points.faulted_rows,
+            loop.changes,
             opening_zone,
             initial_temperature,
         )
 
+    def _kernel_arrays(
+        self, flat_openings: list[OpeningModel], opening_zone: list[int]
+    ) -> _steps.Kernel:
+        """The run's inputs in the layouts of :func:`simulator._kernel.run_steps`."""
+        zones, n = self.zones, len(self.t)
+        series = np.ascontiguousarray(np.stack([self.temp, self.direction, self.rho_cp], axis=1))
+        zone_series = np.empty((len(zones), 8, n))
+        zone_const = np.zeros((len(zones), _kernel.ZONE_CONSTANTS))
+        for zi, zone in enumerate(zones):
+            model = zone.model
+            zone_series[zi] = [
+                zone.wind,
+                zone.mechanical_flow,
+                zone.gains_internal,
+                zone.gains_solar,
+                zone.temp_opaque,
+                zone.setpoint_heating,
+                zone.setpoint_cooling,
+                zone.co2_generation,
+            ]
+            params = model.rc_parameters()
+            row = zone_const[zi]
+            row[_kernel.Z_H_WINDOW] = params.conductance_window
+            row[_kernel.Z_H_OPAQUE] = params.conductance_opaque
+            row[_kernel.Z_H_AIR_SURFACE] = params.conductance_air_surface
+            row[_kernel.Z_H_SURFACE_MASS] = params.conductance_surface_mass
+            row[_kernel.Z_CAPACITY] = params.capacity
+            row[_kernel.Z_CAPACITY_AIR] = params.capacity_air
+            row[_kernel.Z_SHARE_MASS] = params.share_mass
+            row[_kernel.Z_SHARE_SURFACE] = params.share_surface
+            row[_kernel.Z_FLOOR_AREA] = params.floor_area
+            row[_kernel.Z_INFILTRATION] = model.infiltration_flow
+            row[_kernel.Z_VOLUME] = model.volume
+            row[_kernel.Z_HEIGHT] = model.height
+            row[_kernel.Z_PLUME_SHARE] = model.stratification.plume_share
+            row[_kernel.Z_MIXING_AIR_CHANGES] = model.stratification.mixing_air_changes
+            row[_kernel.Z_MAX_GRADIENT] = model.stratification.max_gradient
+            row[_kernel.Z_SETPOINT_COOLING_OPEN] = zone.setpoint_cooling_open
+            row[_kernel.Z_MAX_HEATING] = zone.max_heating
+            row[_kernel.Z_MAX_COOLING] = zone.max_cooling
+            row[_kernel.Z_FIRST_OPENING] = zone.opening_index[0] if zone.opening_index else 0
+            row[_kernel.Z_END_OPENING] = zone.opening_index[-1] + 1 if zone.opening_index else 0
+        opening_const = np.zeros((len(flat_openings), _kernel.OPENING_CONSTANTS))
+        jammed = np.zeros((len(flat_openings), n), dtype=np.bool_)
+        jam_position = np.full((len(flat_openings), n), np.nan)
+        for oi, opening in enumerate(flat_openings):
+            row = opening_const[oi]
+            row[_kernel.O_AREA] = opening.area
+            row[_kernel.O_FACING] = opening.facing
+            row[_kernel.O_LOW] = 1.0 if opening.level == "low" else 0.0
+            row[_kernel.O_HEIGHT] = opening.height
+            row[_kernel.O_OPENING_HEIGHT] = opening.opening_height
+            row[_kernel.O_DISCHARGE] = opening.discharge_coefficient
+            row[_kernel.O_TRAVEL_TIME] = opening.travel_time
+            fire = opening.fire_system_position
+            row[_kernel.O_FIRE_POSITION] = math.nan if fire is None else fire
+            laid = self.timeline.jams.get((zones[opening_zone[oi]].name, opening.name))
+            if laid is not None:
+                jammed[oi], jam_position[oi] = laid
+        return _steps.Kernel(
+            series,
+            zone_series,
+            zone_const,
+            opening_const,
+            jammed,
+            jam_position,
+            float(self.building.co2_outdoor),
+            opening_zone,
+            [o.name for o in flat_openings],
+        )
+
+    def _dependents(self, opening_zone: list[int]) -> list[set[int]]:
+        """For each zone, the other zones whose inputs its physics feeds."""
+        feeds: dict[str, set[int]] = {}
+        for name, zi, _ in self.temperature_points:
+            feeds.setdefault(name, set()).add(zi)
+        for name, zi in self.co2_points:
+            feeds.setdefault(name, set()).add(zi)
+        for name, zis in self.heating_points:
+            feeds.setdefault(name, set()).update(zis)
+        for name, oi in self.position_points:
+            feeds.setdefault(name, set()).add(opening_zone[oi])
+        dependents: list[set[int]] = [set() for _ in self.zones]
+        for reader, zone in enumerate(self.zones):
+            for point in _steps.zone_points(self.config, zone.name):
+                for source in feeds.get(point, ()):
+                    if source != reader:
+                        dependents[source].add(reader)
+        return dependents
+
     def _result(
         self,
-        zone_rows: list[list[tuple[float, ...]]],
-        decision_rows: list[list[tuple[Mode, Layer, Cause, bool]]],
+        zone_rows: FloatArray,
+        outcomes: npt.NDArray[np.int8],
         targets: FloatArray,
         positions: FloatArray,
-        faulted_rows: dict[str, list[float]],
-        changes: list[tuple[float, str, str, int, str, str, str]],
+        faulted_rows: dict[str, FloatArray],
+        changes: list[_steps.Change],
         opening_zone: list[int],
         initial_temperature: float,
     ) -> Result:
@@ -923,8 +839,8 @@ class _Plan:
         frames: dict[str, pd.DataFrame] = {}
         opening_names = [o.name for zone in self.zones for o in zone.openings]
         for zi, zone in enumerate(self.zones):
-            rows = np.asarray(zone_rows[zi], dtype=np.float64).reshape(n, len(_ZONE_COLUMNS))
-            data: dict[str, Any] = {key: rows[:, j] for j, key in enumerate(_ZONE_COLUMNS)}
+            rows = zone_rows[:, zi, :]
+            data: dict[str, Any] = {key: rows[:, j].copy() for j, key in enumerate(_ZONE_COLUMNS)}
             data["flow_infiltration"] = np.full(n, zone.model.infiltration_flow)
             data["flow_mechanical"] = np.asarray(zone.mechanical_flow)
             data["cooling_mechanical"] = np.clip(-data["heating"], 0.0, None)
@@ -938,19 +854,19 @@ class _Plan:
             data["people"] = np.asarray(zone.people)
             data["temp_indoor"] = self._indoor(zone, data["temp_air"], data["gradient"])
             data["occupied"] = self.occupied[zone.name]
-            decided = decision_rows[zi]
-            data["mode"] = pd.Categorical(
-                [row[0].value for row in decided], categories=[m.value for m in Mode]
+            decided = outcomes[zi]
+            data["mode"] = pd.Categorical.from_codes(
+                decided[:, 0], categories=[m.value for m in _steps.MODES]
             )
-            data["layer"] = np.asarray([int(row[1]) for row in decided], dtype=np.int8)
-            data["cause"] = pd.Categorical(
-                [row[2].value for row in decided], categories=[c.value for c in Cause]
+            data["layer"] = decided[:, 1].copy()
+            data["cause"] = pd.Categorical.from_codes(
+                decided[:, 2], categories=[c.value for c in _steps.CAUSES]
             )
-            data["windows_open"] = np.asarray([row[3] for row in decided], dtype=bool)
+            data["windows_open"] = decided[:, 3].astype(bool)
             for oi, name in enumerate(opening_names):
                 if opening_zone[oi] == zi:
-                    data[f"position.{name}"] = positions[:, oi]
-                    data[f"target.{name}"] = targets[:, oi]
+                    data[f"position.{name}"] = positions[:, oi].copy()
+                    data[f"target.{name}"] = targets[:, oi].copy()
             frames[zone.name] = pd.DataFrame(data, index=times)
         sensor_data: dict[str, FloatArray] = dict(self.static_published)
 
@@ -1003,6 +919,7 @@ class _Plan:
             sensors=sensor_frame,
             changes=change_frame,
             unsourced_points=self.unsourced,
+            calls=self.decide_calls,
         )
 
     def _indoor(self, zone: _Zone, temp_air: FloatArray, gradient: FloatArray) -> FloatArray:
@@ -1034,23 +951,6 @@ _ZONE_COLUMNS = (
     "heating",
     "co2",
 )
-
-
-def _change(t: float, decision: Decision) -> tuple[float, str, str, int, str, str, str]:
-    """One row of :attr:`Result.changes`."""
-    shown = ", ".join(
-        f"{name}={'released' if value is None else f'{value:.0%}'}"
-        for name, value in decision.targets.items()
-    )
-    return (
-        t,
-        decision.zone,
-        decision.mode.value,
-        int(decision.layer),
-        decision.cause.value,
-        shown,
-        decision.reason,
-    )
 
 
 # ---------------------------------------------------------------------------------- what-if

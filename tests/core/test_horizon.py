@@ -28,6 +28,7 @@ from ventsup.core.horizon import (
     horizon,
     next_schedule_edge,
     next_timer,
+    outdoor_dew_point,
     schedule_edges,
     state_classes,
     stationary,
@@ -308,6 +309,43 @@ def test_an_average_near_a_threshold_is_uncertain() -> None:
     }
     features = zone_features(config, "room", readings_at, 2)
     assert features.uncertain.tolist() == [True, False]
+
+
+@settings(max_examples=40, deadline=None)
+@given(
+    st.lists(
+        st.tuples(
+            st.one_of(st.none(), st.floats(-20.0, 40.0)),
+            st.one_of(st.none(), st.floats(0.0, 100.0)),
+            st.one_of(st.none(), st.floats(10.0, 35.0)),
+        ),
+        min_size=1,
+        max_size=30,
+    ),
+    st.integers(0, 29),
+)
+def test_a_dew_point_computed_once_gives_the_same_features(
+    rows: list[tuple[float | None, float | None, float | None]], cut: int
+) -> None:
+    # The simulator computes the outdoor dew point once for a run and passes slices of
+    # it to zone_features: the features must be those zone_features derives itself.
+    config = site()
+    n = len(rows)
+    points = {
+        config.outdoor.temperature: readings([r[0] for r in rows]),
+        "rh_out": readings([r[1] for r in rows]),
+        config.zones["room"].temperature.sensors[0]: readings([r[2] for r in rows]),
+    }
+    whole = outdoor_dew_point(config, points, n)
+    lo = min(cut, n - 1)
+    part = {name: Readings(r.ok[lo:], r.value[lo:]) for name, r in points.items()}
+    own = zone_features(config, "room", part, n - lo)
+    given_dew = zone_features(config, "room", part, n - lo, dew_point=tuple(a[lo:] for a in whole))
+    assert np.array_equal(own.codes, given_dew.codes)
+    assert np.array_equal(own.uncertain, given_dew.uncertain)
+    assert np.allclose(
+        own.dew_point_outdoor, given_dew.dew_point_outdoor, atol=1e-6, equal_nan=True
+    )
 
 
 def test_state_classes_follow_the_minimum_step() -> None:

@@ -71,6 +71,7 @@ __all__ = [
     "horizon",
     "next_schedule_edge",
     "next_timer",
+    "outdoor_dew_point",
     "schedule_edges",
     "schedule_membership",
     "schedule_periods",
@@ -651,8 +652,28 @@ def _free_cooling_fraction(
     return value, known & (full | low)
 
 
+def outdoor_dew_point(
+    config: SiteConfig, readings: Mapping[str, Readings], n: int
+) -> tuple[FloatArray, BoolArray, FloatArray]:
+    """The outdoor dew point [°C] as :func:`zone_features` gets it, where it is known, and
+    its tolerance, at ``n`` evaluations (measured, or from temperature and humidity).
+
+    It depends on outdoor points only, so a caller that asks for the features of
+    many stretches of the same evaluations (the simulator) can compute it once
+    and pass slices of it to :func:`zone_features`.
+    """
+    name = config.outdoor.temperature
+    temp_out = readings.get(name, _missing(n)) if name else _missing(n)
+    return _dew_point(config, readings, temp_out, n)
+
+
 def zone_features(
-    config: SiteConfig, zone: str, readings: Mapping[str, Readings], n: int
+    config: SiteConfig,
+    zone: str,
+    readings: Mapping[str, Readings],
+    n: int,
+    *,
+    dew_point: tuple[FloatArray, BoolArray, FloatArray] | None = None,
 ) -> ZoneFeatures:
     """Every state-free comparison of the core on zone ``zone``'s inputs, at ``n`` evaluations.
 
@@ -665,6 +686,7 @@ def zone_features(
     against each maximum; CO2 against its limits; the heating status;
     feedback known; the free-cooling fraction against every position and cap
     it can meet (0, 1, night flush, CO2, wind cap, rain and security positions).
+    ``dew_point``, when given, is :func:`outdoor_dew_point` of the same readings.
     """
     rules = config.rules_for(zone)
     spec = config.zones[zone]
@@ -733,7 +755,9 @@ def zone_features(
             role, "min_difference", codes.compare(difference, both, threshold, t_in_eps, keep=False)
         )
 
-    dew, dew_known, dew_eps = _dew_point(config, readings, temp_out, n)
+    dew, dew_known, dew_eps = (
+        _dew_point(config, readings, temp_out, n) if dew_point is None else dew_point
+    )
     block("cooling_or_flush", "dew_point_known", dew_known.astype(np.uint8))
     for role, maximum in (("cooling", fc.dew_point_max), ("flush", nf.dew_point_max)):
         if maximum is not None:

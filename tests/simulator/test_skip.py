@@ -1,0 +1,141 @@
+"""The closed loop skips the core's repeats exactly: the same run with and without skipping.
+
+:class:`simulator.loop.CoreController` with ``skip_repeats`` (the default)
+lets :func:`simulator.loop.run` repeat an outcome that the core would repeat
+instead of calling :func:`ventsup.core.decide.decide` (see
+:mod:`simulator._steps`). These tests run the same closed loop both ways over
+seeded random scenarios (rain, gusts, smoke drills, sensor dropouts, sticks
+and spikes, actuator jams, crowds) on spans with schedule edges and a daylight
+saving change, and check that every recorded value, every change with its
+reason, and every zone state the skipping run holds (after each decision and
+at the end of each stretch of repeats) equal those of the run that decides
+every step.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+import pandas as pd
+import pytest
+
+from simulator.building import Building
+from simulator.loop import CoreController, Result, _plan
+from simulator.scenario import (
+    ActuatorJam,
+    Event,
+    Gust,
+    OccupancyChange,
+    RainSpell,
+    Scenario,
+    SensorFault,
+    SmokeDrill,
+    Timing,
+)
+from simulator.weather import synthetic
+from ventsup.config.model import SiteConfig
+from ventsup.core.state import ZoneState
+
+STEP = 60.0
+
+
+def _scenario(site: SiteConfig, seed: int, hours: float) -> Scenario:
+    """Random events over a run of ``hours`` (times relative to its start)."""
+    rng = np.random.default_rng(seed)
+    span = hours * 3600.0
+
+    def timing(longest: float) -> Timing:
+        start = float(rng.uniform(0.0, span))
+        return Timing(start, start + float(rng.uniform(120.0, longest)), relative=True)
+
+    points = list(site.points)
+    events: list[Event] = []
+    for _ in range(int(rng.integers(1, 4))):
+        events.append(RainSpell(timing(3 * 3600.0)))
+    for _ in range(int(rng.integers(1, 3))):
+        direction = None if rng.random() < 0.3 else float(rng.uniform(0.0, 360.0))
+        events.append(Gust(timing(2 * 3600.0), float(rng.uniform(6.0, 20.0)), direction))
+    zone = str(rng.choice(list(site.zones)))
+    events.append(SmokeDrill(timing(1800.0), site.zones[zone].smoke_alarms))
+    for _ in range(int(rng.integers(2, 6))):
+        point = str(rng.choice(points))
+        fault = str(rng.choice(["dropout", "stick", "spike"]))
+        value = None
+        if fault == "spike" or (fault == "stick" and rng.random() < 0.5):
+            low, high = site.points[point].plausible_range
+            middle = 0.5 * (low + high) if np.isfinite(low + high) else 20.0
+            value = float(rng.choice([middle, high + 100.0, rng.uniform(0.0, 1.0), 1.0]))
+        events.append(SensorFault(timing(4 * 3600.0), point, fault, value))  # type: ignore[arg-type]
+    for _ in range(int(rng.integers(0, 3))):
+        zone = str(rng.choice(list(site.zones)))
+        opening = str(rng.choice(list(site.zones[zone].openings)))
+        position = None if rng.random() < 0.5 else float(rng.uniform(0.0, 1.0))
+        events.append(ActuatorJam(timing(6 * 3600.0), zone, opening, position))
+    zone = str(rng.choice(list(site.zones)))
+    events.append(OccupancyChange(timing(4 * 3600.0), zone, float(rng.uniform(0.0, 300.0))))
+    return Scenario(name=f"random {seed}", events=tuple(events))
+
+
+def _run(
+    site: SiteConfig,
+    building: Building,
+    scenario: Scenario,
+    start: pd.Timestamp,
+    hours: float,
+    seed: int,
+    skip: bool,
+) -> tuple[Result, list[tuple[int, int, ZoneState]], int]:
+    weather = synthetic(
+        41.2,
+        -88.1,
+        site.site.time_zone,
+        start - pd.Timedelta(hours=2),
+        start + pd.Timedelta(hours=hours + 2),
+        seed=seed,
+    )
+    plan = _plan(site, building, weather, scenario, start, start + pd.Timedelta(hours=hours), STEP)
+    trace: list[tuple[int, int, ZoneState]] = []
+    result = plan.simulate(
+        CoreController(site, skip_repeats=skip),
+        21.0,
+        None,
+        lambda k, zone, state: trace.append((k, zone, state)),
+    )
+    return result, trace, plan.decide_calls
+
+
+# Spans with schedule edges on weekdays and a weekend, a daylight saving change
+# (2024-03-10 and 2024-11-03 in America/Chicago), free cooling and night flush.
+SPANS = [
+    ("2024-03-09 20:00", 30.0),
+    ("2024-07-15 04:00", 30.0),
+    ("2024-05-17 12:00", 36.0),
+    ("2024-11-02 18:00", 24.0),
+    ("2024-09-04 09:00", 24.0),
+]
+
+
+@pytest.mark.parametrize("seed", range(len(SPANS)))
+def test_skipping_repeats_changes_nothing(site: SiteConfig, building: Building, seed: int) -> None:
+    text, hours = SPANS[seed]
+    start = pd.Timestamp(text, tz=site.site.time_zone)
+    scenario = _scenario(site, 100 + seed, hours)
+    every, every_trace, every_calls = _run(site, building, scenario, start, hours, seed, False)
+    skipped, skipped_trace, skipped_calls = _run(site, building, scenario, start, hours, seed, True)
+
+    # Every step's record: physics, outcome, targets, positions, what each point published.
+    for zone, frame in every.zones.items():
+        pd.testing.assert_frame_equal(skipped.zones[zone], frame, check_exact=True)
+    pd.testing.assert_frame_equal(skipped.sensors, every.sensors, check_exact=True)
+    # The changes, with the reasons the core gave.
+    pd.testing.assert_frame_equal(skipped.changes, every.changes, check_exact=True)
+    # Every state the skipping run held is the one the core reached at that step.
+    states = {(k, zone): state for k, zone, state in every_trace}
+    assert len(states) == len(every_trace) == len(every.zones) * len(every.outdoor)
+    for k, zone, state in skipped_trace:
+        assert state == states[(k, zone)], (k, zone)
+    # And the end state of each zone is among them.
+    last = len(every.outdoor) - 1
+    assert {zone for k, zone, _ in skipped_trace if k == last} == set(range(len(every.zones)))
+    # The run without skipping asked the core every step; the other far less often.
+    assert every_calls == len(every.zones) * len(every.outdoor)
+    assert skipped_calls < every_calls / 3
