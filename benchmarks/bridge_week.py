@@ -175,6 +175,10 @@ def main() -> int:
             f"{stats.accepted} values accepted and {stats.rejected} rejected by the daemon, "
             f"{stats.waited:.1f} s waiting for it"
         )
+        print(
+            f"per step: {stats.published / steps:.1f} messages out (QoS 0, one burst), "
+            f"{stats.outputs / steps:.2f} outputs and one acknowledgement in: one round trip"
+        )
         # The same week in process with the targets as the commands carry them.
         commanded = run(
             site, building, weather, start=start, end=end, step=args.step,

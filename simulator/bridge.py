@@ -9,7 +9,9 @@ first call of a step it plays the site's gateways and actuators:
    point's own topic, in the point's own format (unit, JSON field, words),
    in :func:`~ventsup.drivers.simclock.step_order` (urgent points last),
    then the clock message ``<prefix>/sim/clock`` with the step's time and
-   how many point messages it has;
+   how many point messages it has (all at QoS 0, written to the socket as
+   one burst; the counts make the step complete, see
+   :mod:`ventsup.drivers.simclock`);
 2. waits for the acknowledgement ``<prefix>/sim/ack`` and for every output
    the acknowledgement counts (commands, zone states, opening states); no
    answer within ``timeout`` raises :class:`~simulator.errors.ControllerError`
@@ -34,7 +36,10 @@ first step. One simulator per controller.
 Limits: points that share a topic must all have a ``json_path`` (their
 values are published as one JSON object); a value dropped out of such a
 topic makes the decoder reject the message for that point (counted as
-rejected) rather than publishing nothing.
+rejected) rather than publishing nothing. A broker that loses messages (a
+restart in the middle of a step: they are QoS 0) leaves the step short; the
+bridge then stops with a :class:`~simulator.errors.ControllerError` saying
+what is missing, and the run has to be started again.
 """
 
 from __future__ import annotations
@@ -63,8 +68,6 @@ from ventsup.core.inputs import Held
 from ventsup.core.state import Cause, Decision, Layer, Mode, ZoneState
 from ventsup.drivers.messages import Topics
 from ventsup.drivers.simclock import (
-    WAKE,
-    QuietInbox,
     ack_topic,
     clock_topic,
     step_order,
@@ -275,11 +278,9 @@ class MqttController:
         self.targets: dict[tuple[str, str], float] = {}
         self.released: set[tuple[str, str]] = set()
         self.states: dict[str, dict[str, Any]] = {}
-        # Outputs wait aside until the acknowledgement that counts them (see QuietInbox).
-        watched = self.watched
-        self._sink = QuietInbox(
-            lambda item: not isinstance(item, Message) or item.topic not in watched
-        )
+        # One thread publishes a step and then waits for its answer: the client has no
+        # network thread of its own; waiting polls it, and its callbacks fill this queue.
+        self._sink: queue.Queue[Any] = queue.Queue()
         self._client: MqttClient | None = None
         self._t: float | None = None
         self._decisions: dict[str, Decision] = {}
@@ -299,6 +300,8 @@ class MqttController:
             self.settings,
             self._sink,
             subscriptions=[self.ack_topic, self.topics.status, *sorted(self.watched)],
+            subscription_qos=0,
+            network_thread=False,
         )
         try:
             client.connect()
@@ -351,13 +354,20 @@ class MqttController:
         self.close()
 
     def _next(self, deadline: float) -> Any | None:
-        remaining = deadline - time.monotonic()
-        if remaining <= 0:
-            return None
-        try:
-            return self._sink.get(timeout=remaining)
-        except queue.Empty:
-            return None
+        """The next item from the broker, None once ``deadline`` [monotonic s] has passed."""
+        sink, client = self._sink, self._client
+        while True:
+            try:
+                return sink.get_nowait()
+            except queue.Empty:
+                pass
+            remaining = deadline - time.monotonic()
+            if remaining <= 0 or client is None:
+                return None
+            try:
+                client.poll(remaining)
+            except MqttError as exc:
+                raise ControllerError(str(exc)) from exc
 
     # ----------------------------------------------------------------- the step
 
@@ -377,17 +387,18 @@ class MqttController:
         step = self.stats.steps
         messages = 0
         try:
-            for plan in self.plan:
-                values = {}
-                for name, _, _ in plan.points:
-                    sample = held.get(name)
-                    if sample is not None and sample.t == t:
-                        values[name] = sample.value
-                if values:
-                    client.publish(plan.topic, encode_values(plan, values), qos=1)
-                    messages += 1
-            tick = {"t": t, "step": step, "messages": messages}
-            client.publish(self.clock_topic, json.dumps(tick).encode(), qos=1)
+            with client.corked():  # the step's messages in as few segments as the kernel can
+                for plan in self.plan:
+                    values = {}
+                    for name, _, _ in plan.points:
+                        sample = held.get(name)
+                        if sample is not None and sample.t == t:
+                            values[name] = sample.value
+                    if values:
+                        client.publish(plan.topic, encode_values(plan, values), qos=0)
+                        messages += 1
+                tick = {"t": t, "step": step, "messages": messages}
+                client.publish(self.clock_topic, json.dumps(tick).encode(), qos=0)
         except MqttError as exc:
             raise ControllerError(f"step {step}: cannot publish: {exc}") from exc
         self.stats.published += messages + 1
@@ -398,28 +409,27 @@ class MqttController:
         self._decisions = {zone: self._decision(zone, step) for zone in self.config.zones}
 
     def _await(self, step: int, t: float) -> None:
-        """Wait for the ack of ``step`` and every output it counts."""
+        """Wait for the ack of ``step`` and every output it counts.
+
+        Outputs are read as they come (a later step's cannot come before this
+        step is acknowledged and the next one published); the ack's count
+        says when all of this step's are in, whatever order they arrived in.
+        """
         deadline = time.monotonic() + self.timeout
         ack: dict[str, Any] | None = None
-        inbox = self._sink
-        while True:
-            if ack is not None:
-                inbox.waking = True  # before taking: an output after this wakes us
-                for message in inbox.take_aside():
-                    if not message.retain:  # retained: from before this run
-                        self._output(message)
-                if self.stats.outputs >= ack["outputs"]:
-                    inbox.waking = False
-                    break
+        watched = self.watched
+        while ack is None or self.stats.outputs < ack["outputs"]:
             item = self._next(deadline)
             if item is None:
                 raise self._no_answer(step, t, ack)
             if isinstance(item, Disconnected):
                 self.stats.disconnects += 1
                 self.stats.notes.append(f"step {step}: lost the broker ({item.reason})")
-            if item is WAKE or not isinstance(item, Message) or item.retain:
+            if not isinstance(item, Message) or item.retain:  # retained: from before this run
                 continue
-            if item.topic == self.ack_topic:
+            if item.topic in watched:
+                self._output(item)
+            elif item.topic == self.ack_topic:
                 data = json.loads(item.payload)
                 if data.get("error"):
                     raise ControllerError(
@@ -434,6 +444,7 @@ class MqttController:
                     f"the controller went {item.payload.decode(errors='replace')} at step "
                     f"{step} ({_when(t)})"
                 )
+        assert ack is not None
         if self.stats.outputs > ack["outputs"]:
             self.stats.unexpected_outputs = self.stats.outputs - int(ack["outputs"])
 

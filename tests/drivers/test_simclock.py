@@ -9,7 +9,6 @@ values, clocks refused, and stale retained values ignored.
 from __future__ import annotations
 
 import json
-import queue
 from pathlib import Path
 from typing import Any
 
@@ -18,9 +17,7 @@ import pytest
 from ventsup.config import load_config
 from ventsup.drivers.service import Service
 from ventsup.drivers.simclock import (
-    WAKE,
     CountingPublisher,
-    QuietInbox,
     Tick,
     ack_payload,
     ack_topic,
@@ -105,25 +102,6 @@ def test_counting_publisher_counts_what_a_simulator_watches() -> None:
     for topic in ("a/state", "a/heartbeat", "a/command", "a/state"):
         publisher.publish(topic, b"x")
     assert (publisher.count, len(sent)) == (3, 4)
-
-
-def test_quiet_inbox_wakes_its_reader_only_when_asked() -> None:
-    inbox = QuietInbox(lambda item: item == "clock", maxsize=3)
-    for item in ("a", "b", "clock", "c"):
-        inbox.put_nowait(item)
-    assert inbox.get_nowait() == "clock"
-    with pytest.raises(queue.Empty):
-        inbox.get_nowait()  # a, b and c went aside without a wake-up
-    assert inbox.take_aside() == ["a", "b", "c"]
-    assert inbox.take_aside() == []
-    inbox.waking = True
-    inbox.put_nowait("d")
-    assert inbox.get_nowait() is WAKE
-    assert inbox.take_aside() == ["d"]
-    for item in ("e", "f", "g"):
-        inbox.put_nowait(item)
-    with pytest.raises(queue.Full):
-        inbox.put_nowait("h")  # the MQTT edge counts it as dropped
 
 
 def test_a_simulated_clock_keeps_its_own_clock_and_ledger(tmp_path: Path) -> None:

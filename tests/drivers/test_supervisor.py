@@ -14,6 +14,7 @@ from ventsup.drivers.messages import (
     OverrideRefused,
     Topics,
     interlock_payload,
+    json_payload,
     parse_override,
     request_id,
 )
@@ -446,6 +447,16 @@ def test_interlock_payload_is_strict_json(config: SiteConfig) -> None:
         "windows_open": False,
         "open_area": 0.0,
     }
+
+
+def test_json_payload_is_strict_with_or_without_non_finite_values() -> None:
+    # Encoded as it is when it can be, cleaned first when it cannot: the same JSON either way.
+    plain = {"a": 1.5, "b": [1, (2.0, "x")], "c": {"d": None, "e": True}, "f": "°C"}
+    assert json_payload(plain) == json.dumps(plain, ensure_ascii=False).encode("utf-8")
+    odd = {"a": float("nan"), "b": [float("inf"), 1.0], "c": {"d": -float("inf")}}
+    assert json_payload(odd) == b'{"a": null, "b": [null, 1.0], "c": {"d": null}}'
+    nested = {"a": {"b": 2.5}.items().mapping, "c": float("nan")}  # a mapping, not a dict
+    assert json.loads(json_payload(nested)) == {"a": {"b": 2.5}, "c": None}
 
 
 def test_while_the_broker_is_away_only_commands_are_queued(config: SiteConfig) -> None:

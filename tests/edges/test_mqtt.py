@@ -192,3 +192,101 @@ def test_qos1_waits_out_a_broker_restart(mosquitto: Any, topic_prefix: str) -> N
         next_item(items, Connected)
         assert client.wait_delivered(mid, WAIT) is None
         assert client.stats.pending == 0
+
+
+def test_subscription_qos_is_checked() -> None:
+    with pytest.raises(ValueError, match="subscription_qos must be 0, 1 or 2, got 3"):
+        MqttClient(MqttSettings("127.0.0.1", 1, "test"), subscription_qos=3)
+
+
+@pytest.mark.broker
+@pytest.mark.parametrize("network_thread", [True, False])
+def test_a_corked_burst_and_a_large_message_arrive_whole_and_in_order(
+    mosquitto: Any, topic_prefix: str, network_thread: bool
+) -> None:
+    # The client reads the socket in 64 KiB chunks and hands paho many packets from one
+    # read: a burst of small messages, one larger than a chunk, and more small ones must
+    # come out exactly as they went in, in order.
+    topic = f"{topic_prefix}/burst"
+    sent = [f"{n:04d}".encode() for n in range(150)]
+    sent.insert(100, bytes(range(256)) * 1000)  # 256 000 bytes: four chunks and more
+    items: queue.Queue[Any] = queue.Queue()
+    receiver = MqttClient(
+        settings(mosquitto),
+        items,
+        subscriptions=[topic],
+        subscription_qos=0,
+        network_thread=network_thread,
+    )
+    with receiver, MqttClient(settings(mosquitto), queue.Queue()) as sender:
+        receiver.connect()
+        sender.connect()
+        deadline = time.monotonic() + WAIT
+
+        def received(kind: type) -> Any:
+            while time.monotonic() < deadline:
+                if not network_thread and items.empty():
+                    receiver.poll(0.1)
+                    continue
+                try:
+                    item = items.get(timeout=0.1)
+                except queue.Empty:
+                    continue
+                if isinstance(item, kind):
+                    return item
+            pytest.fail(f"no {kind.__name__} within {WAIT:g} s")
+
+        received(Subscribed)
+        with sender.corked():
+            mids = [sender.publish(topic, payload, qos=1) for payload in sent]
+        sock = sender._client.socket()  # the one place a test looks inside
+        assert isinstance(sock, socket.socket)
+        if hasattr(socket, "TCP_CORK"):
+            assert sock.getsockopt(socket.IPPROTO_TCP, socket.TCP_CORK) == 0  # uncorked after
+        for mid in mids:
+            assert sender.wait_delivered(mid, WAIT) is None
+        messages = [received(Message) for _ in sent]
+        assert [m.payload for m in messages] == sent
+        assert {(m.topic, m.qos) for m in messages} == {(topic, 0)}
+
+
+@pytest.mark.broker
+def test_without_a_network_thread_poll_drives_it_and_reconnects(
+    mosquitto: Any, topic_prefix: str
+) -> None:
+    items: queue.Queue[Any] = queue.Queue()
+    topic = f"{topic_prefix}/in"
+    client = MqttClient(settings(mosquitto), items, subscriptions=[topic], network_thread=False)
+    with pytest.raises(RuntimeError, match="network_thread=False"):
+        client.poll(0.0)  # not connected yet
+
+    def polled(kind: type) -> Any:
+        deadline = time.monotonic() + WAIT
+        while time.monotonic() < deadline:
+            try:
+                item = items.get_nowait()
+            except queue.Empty:
+                client.poll(0.1)
+                continue
+            if isinstance(item, kind):
+                return item
+        pytest.fail(f"no {kind.__name__} within {WAIT:g} s")
+
+    with client:
+        client.connect()  # answered without a network thread: connect polls too
+        polled(Subscribed)
+        mid = client.publish(topic, b"21.5", qos=1)
+        assert client.wait_delivered(mid, WAIT) is None  # polls while it waits
+        assert polled(Message).payload == b"21.5"
+        mosquitto.stop()
+        polled(Disconnected)
+        mosquitto.start()
+        polled(Connected)  # poll reconnected, and subscribed again
+        polled(Subscribed)
+        client.publish(topic, b"22.0", qos=1)
+        assert polled(Message).payload == b"22.0"
+        assert client.stats.connects == 2
+    with MqttClient(settings(mosquitto), queue.Queue()) as threaded:
+        threaded.connect()
+        with pytest.raises(RuntimeError, match="network_thread=False"):
+            threaded.poll(0.0)

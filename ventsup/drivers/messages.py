@@ -233,8 +233,20 @@ def _clean(value: Any) -> Any:
 
 
 def json_payload(value: Mapping[str, Any]) -> bytes:
-    """``value`` as strict UTF-8 JSON (non-finite floats as null)."""
-    return json.dumps(_clean(value), ensure_ascii=False, allow_nan=False).encode("utf-8")
+    """``value`` as strict UTF-8 JSON (non-finite floats as null).
+
+    Keys must be text. Most payloads hold no non-finite float: they are
+    encoded as they are, and only one that the strict encoder refuses is
+    cleaned first (a copy of every level, the slower way).
+    """
+    try:
+        text = _STRICT.encode(value)
+    except (ValueError, TypeError):  # a NaN or infinity, or a mapping that is not a dict
+        text = _STRICT.encode(_clean(value))
+    return text.encode("utf-8")
+
+
+_STRICT = json.JSONEncoder(ensure_ascii=False, allow_nan=False)
 
 
 def iso_time(t: float | None) -> str | None:

@@ -5,7 +5,8 @@ Threads and who owns what
 One worker thread owns all state (held samples, zone states, what was last
 commanded, counters, the ledger's batch writer) and is the only caller of the
 core. paho's network thread only puts items on the worker's queue (see
-:mod:`ventsup.edges.mqtt`); :meth:`Service.stop` (from the main thread's
+:mod:`ventsup.edges.mqtt`; with a simulated clock there is no network
+thread: the worker polls the client, and its callbacks run in the worker); :meth:`Service.stop` (from the main thread's
 signal handler, or a test) puts a :class:`Stop` item.
 :class:`~ventsup.drivers.supervisor.Supervisor` is the worker's logic without
 threads or broker, so it can be tested with a list standing in for the broker.
@@ -50,9 +51,10 @@ Simulated clock
 With ``sim_clock=True`` (``ventsup run --sim-clock``) the daemon takes its
 time from a simulator over MQTT instead of the wall clock, in lock-step: see
 :mod:`ventsup.drivers.simclock` for why, the protocol and the ordering
-argument. Only the worker's loop differs (:meth:`Service._sim_loop`); the
-supervisor, and so decoding, urgent evaluation, commands, states and the
-ledger, are those of a live run. The ledger defaults to a ``-sim`` file beside
+argument. Only the worker's loop differs (:meth:`Service._sim_loop`: it
+drives the MQTT client itself, without paho's network thread, and writes a
+step's outputs and ack as one burst); the supervisor, and so decoding, urgent
+evaluation, commands, states and the ledger, are those of a live run. The ledger defaults to a ``-sim`` file beside
 the site's, so that simulated records never mix with real ones.
 
 Restart safety
@@ -73,16 +75,14 @@ import queue
 import threading
 import time
 from collections.abc import Mapping
-from dataclasses import dataclass, replace
+from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
 
 from ventsup.config.model import SiteConfig
 from ventsup.drivers.messages import Topics
 from ventsup.drivers.simclock import (
-    WAKE,
     CountingPublisher,
-    QuietInbox,
     Tick,
     ack_payload,
     ack_topic,
@@ -104,6 +104,9 @@ _log = logging.getLogger("ventsup.service")
 # After the broker answers the subscriptions, retained values arrive at once; wait
 # this long for them before the first evaluation (never longer than startup_settle).
 _RETAINED_QUIET = 0.25
+# With a simulated clock, the longest the worker waits in the network before it
+# looks for a stop request [s].
+_SIM_POLL = 0.2
 
 
 def default_ledger_path(config: SiteConfig, config_dir: Path) -> Path:
@@ -121,6 +124,23 @@ class _SimSchedule:
     """What is next due in simulated time [s since the epoch]."""
 
     next_tick: float = math.inf
+
+
+@dataclass
+class _SimStep:
+    """The step being gathered by the simulated clock's worker (see ``Service._sim_loop``)."""
+
+    clock_topic: str
+    order: Mapping[str, tuple[int, int]]
+    schedule: _SimSchedule = field(default_factory=_SimSchedule)
+    waiting: Tick | None = None  # its clock message, once it came
+    pending: list[Message] = field(default_factory=list)  # its messages so far
+    points: int = 0  # point messages in pending
+    retained: int = 0  # retained messages ignored since the start
+
+    def clear(self) -> None:
+        """Start gathering the next step."""
+        self.waiting, self.pending, self.points = None, [], 0
 
 
 @dataclass(frozen=True)
@@ -234,11 +254,6 @@ class Service:
         self.environ = environ
         self.topics = Topics(config)
         self.queue: queue.Queue[Any] = queue.Queue(maxsize=100_000)
-        if sim_clock:  # a step's messages wait aside until its clock message (see simclock)
-            clock_name = clock_topic(config)
-            self.queue = QuietInbox(
-                lambda item: not isinstance(item, Message) or item.topic == clock_name
-            )
         self.supervisor: Supervisor | None = None
         self.mqtt: MqttClient | None = None
         self.ledger: Ledger | None = None
@@ -276,8 +291,13 @@ class Service:
         )
         self.ledger = Ledger.open(self.ledger_path, retention=self.config.controller.retention)
         try:
+            # With a simulated clock the worker drives the network itself (see _sim_loop).
             self.mqtt = MqttClient(
-                settings, self.queue, subscriptions=self.subscriptions, clock=self.clock
+                settings,
+                self.queue,
+                subscriptions=self.subscriptions,
+                clock=self.clock,
+                network_thread=not self.sim_clock,
             )
             publisher: Publisher = self.mqtt
             if self.sim_clock:
@@ -416,78 +436,82 @@ class Service:
     def _sim_loop(self) -> str:
         """The worker with a simulated clock: act on clock messages only (see ``simclock``).
 
-        Point and override messages wait aside in the :class:`QuietInbox` until
-        the clock message of their step, and the clock message waits until as
-        many point messages as it announces have arrived. Broker events
-        (connect, subscribe, refusals) are handled when they come. The ledger
-        is written and the heartbeat published on the wall clock, as in a live
-        run: that changes when, not what, and the heartbeat says the process
-        is alive.
+        The worker drives the MQTT client itself (made without a network
+        thread): in lock-step one side always waits for the other, so a
+        second thread would only add a hand-off per message. Point and
+        override messages wait in a list until the clock message of their
+        step, and the clock message waits until as many point messages as it
+        announces have arrived. Broker events (connect, subscribe, refusals)
+        are handled when they come. The ledger is written and the heartbeat
+        published on the wall clock, as in a live run: that changes when, not
+        what, and the heartbeat says the process is alive.
         """
-        sup, clock, inbox = self.supervisor, self.manual_clock, self.queue
-        assert sup is not None and clock is not None and isinstance(inbox, QuietInbox)
-        order = step_order(self.config)
-        schedule = _SimSchedule()
-        waiting: Tick | None = None
-        pending: list[Message] = []
-        points = 0  # point messages in pending
-        retained = 0
+        sup, clock, inbox, mqtt = self.supervisor, self.manual_clock, self.queue, self.mqtt
+        assert sup is not None and clock is not None and mqtt is not None
+        step = _SimStep(clock_topic(self.config), step_order(self.config))
         next_heartbeat = time.monotonic()
-        _log.info("simulated clock: the time comes from %s", clock_topic(self.config))
+        _log.info("simulated clock: the time comes from %s", step.clock_topic)
         while True:
-            deadlines = [next_heartbeat]
-            write = sup.next_write()
-            if write is not None:
-                deadlines.append(write)
-            try:
-                item = inbox.get(timeout=max(0.0, min(deadlines) - time.monotonic()))
-            except queue.Empty:
-                item = None
-            if isinstance(item, Stop) or self._stop.is_set():
-                return item.reason if isinstance(item, Stop) else "stop requested"
-            if isinstance(item, Message):  # a clock message (the others wait aside)
-                if item.retain:
-                    _log.info("simulated clock: ignoring a retained clock message")
-                    continue
-                if waiting is not None:
-                    _log.warning(
-                        "simulated clock: step %d got %d of %d point messages before the "
-                        "next clock message; handling it with those",
-                        waiting.step,
-                        points,
-                        waiting.messages,
-                    )
-                    self._sim_step(waiting, pending, order, schedule)
-                    waiting, pending, points = None, [], 0
+            if inbox.empty():
+                deadlines = [next_heartbeat]
+                write = sup.next_write()
+                if write is not None:
+                    deadlines.append(write)
+                # Short polls: a stop request from another thread is seen within one.
+                mqtt.poll(min(_SIM_POLL, max(0.0, min(deadlines) - time.monotonic())))
+            while True:  # what the poll brought (callbacks ran in this thread)
                 try:
-                    waiting = parse_tick(item.payload)
-                except ValueError as exc:
-                    self._sim_ack(None, str(exc))
-            elif item is not None and item is not WAKE:
-                try:
-                    sup.handle(item, clock.now())
-                except Exception:
-                    sup.counts["evaluation_errors"] += 1
-                    _log.exception("handling %s failed; carrying on", type(item).__name__)
-            if waiting is not None:
-                inbox.waking = True  # before taking: a message after this wakes us
-                for message in inbox.take_aside():
-                    if message.retain:  # a value from before the simulation
-                        retained += 1
-                        if retained == 1:
-                            _log.info("simulated clock: ignoring retained %s", message.topic)
-                        continue
-                    pending.append(message)
-                    points += message.topic in sup.topic_points
-                if points >= waiting.messages:
-                    inbox.waking = False
-                    self._sim_step(waiting, pending, order, schedule)
-                    waiting, pending, points = None, [], 0
+                    item = inbox.get_nowait()
+                except queue.Empty:
+                    break
+                if isinstance(item, Stop):
+                    return item.reason
+                self._sim_item(item, step)
+            if self._stop.is_set():
+                return "stop requested"
             now = time.monotonic()
             if now >= next_heartbeat:
                 sup.heartbeat(clock.now(), self._heartbeat_extra())
                 next_heartbeat = now + self.config.controller.heartbeat
             sup.maintain(clock.now())
+
+    def _sim_item(self, item: object, step: _SimStep) -> None:
+        """One item from the broker: a step's message, its clock message, or a broker event."""
+        sup, clock = self.supervisor, self.manual_clock
+        assert sup is not None and clock is not None
+        if not isinstance(item, Message):
+            try:
+                sup.handle(item, clock.now())
+            except Exception:
+                sup.counts["evaluation_errors"] += 1
+                _log.exception("handling %s failed; carrying on", type(item).__name__)
+            return
+        if item.retain:  # a value from before the simulation
+            step.retained += 1
+            if step.retained == 1:
+                _log.info("simulated clock: ignoring retained %s", item.topic)
+            return
+        if item.topic != step.clock_topic:
+            step.pending.append(item)
+            step.points += item.topic in sup.topic_points
+        else:
+            if step.waiting is not None:
+                _log.warning(
+                    "simulated clock: step %d got %d of %d point messages before the "
+                    "next clock message; handling it with those",
+                    step.waiting.step,
+                    step.points,
+                    step.waiting.messages,
+                )
+                self._sim_step(step.waiting, step.pending, step.order, step.schedule)
+                step.clear()
+            try:
+                step.waiting = parse_tick(item.payload)
+            except ValueError as exc:
+                self._sim_ack(None, str(exc))
+        if step.waiting is not None and step.points >= step.waiting.messages:
+            self._sim_step(step.waiting, step.pending, step.order, step.schedule)
+            step.clear()
 
     def _sim_step(
         self,
@@ -504,6 +528,19 @@ class Service:
         except ValueError as exc:
             self._sim_ack(tick, f"step {tick.step}: {exc}")
             return
+        assert self.mqtt is not None
+        with self.mqtt.corked():  # the step's outputs and its ack in as few segments as can be
+            self._sim_outputs(tick, messages, order, schedule)
+
+    def _sim_outputs(
+        self,
+        tick: Tick,
+        messages: list[Message],
+        order: Mapping[str, tuple[int, int]],
+        schedule: _SimSchedule,
+    ) -> None:
+        sup = self.supervisor
+        assert sup is not None
         t = tick.t
         controller = self.config.controller
         if not sup.ready:
@@ -514,7 +551,9 @@ class Service:
         )
         for _, message in ranked:
             try:
-                sup.handle(replace(message, t=t), t)
+                sup.handle(
+                    Message(message.topic, message.payload, message.qos, message.retain, t), t
+                )
             except Exception:
                 sup.counts["evaluation_errors"] += 1
                 _log.exception("handling a message on %s failed; carrying on", message.topic)

@@ -17,8 +17,8 @@ wind, commands, states, the ledger) is the very code of a live run: the
 mode adds a loop (:meth:`~ventsup.drivers.service.Service.start` with
 ``sim_clock=True``), not a second controller.
 
-Protocol (topics under the controller's ``prefix``; QoS 1, never retained)
--------------------------------------------------------------------------
+Protocol (topics under the controller's ``prefix``; never retained)
+------------------------------------------------------------------
 ``<prefix>/sim/clock``, simulator to controller::
 
     {"t": 1719943200.0, "step": 17, "messages": 21}
@@ -67,6 +67,20 @@ not rely on it:
    record the same decisions; urgent points last also means the evaluation
    they trigger sees every value of the step, as the in-process loop does.
 
+Quality of service: the simulator publishes its point values and clock
+messages at QoS 0 and subscribes at QoS 0; the controller publishes as in a
+live run (commands at ``controller.command_qos``, states at 1) and the ack at
+QoS 1. The counts above, not MQTT acknowledgements, say that a step is
+complete, so QoS 1 would add a round of acknowledgements per message and no
+guarantee: a message the broker loses (a restart in the middle of a step)
+leaves its step short, and the simulator stops with an error that says what
+is missing instead of going on without it.
+
+Speed: both sides drive their MQTT client from the one thread that waits
+(:class:`~ventsup.edges.mqtt.MqttClient` with ``network_thread=False``), and
+write a step's messages corked (:meth:`~ventsup.edges.mqtt.MqttClient.corked`),
+so that a step costs a few process switches rather than one per message.
+
 Retained messages are stale in a simulation (a value from before the run) and
 are dropped by both sides. Override requests (``ventsup override``) are
 applied at the next step, in simulated time. The ledger is written and the
@@ -79,9 +93,7 @@ from __future__ import annotations
 
 import json
 import math
-import queue
-import threading
-from collections.abc import Callable, Iterable, Mapping
+from collections.abc import Iterable, Mapping
 from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
@@ -91,9 +103,7 @@ from ventsup.drivers.messages import Topics, json_payload
 from ventsup.drivers.supervisor import Publisher
 
 __all__ = [
-    "WAKE",
     "CountingPublisher",
-    "QuietInbox",
     "Tick",
     "ack_payload",
     "ack_topic",
@@ -233,61 +243,3 @@ class CountingPublisher:
         if topic in self.watched:
             self.count += 1
         return mid
-
-
-#: Put on a :class:`QuietInbox`'s queue when an item went aside while its reader waits.
-WAKE = object()
-
-
-class QuietInbox(queue.Queue[Any]):
-    """A queue whose reader is woken only by the items that matter for the lock-step.
-
-    In a lock-step run most messages (a step's point values; the controller's
-    outputs) only matter once the one message that closes the step has
-    arrived (the clock message; the acknowledgement). Waking the reader for
-    each of them costs a thread switch per message, which on a small host is
-    most of a step's time. ``put_nowait`` (what the MQTT edge calls) sets an
-    item for which ``announce(item)`` is false aside, in arrival order,
-    without waking anybody; :meth:`take_aside` hands them over. While
-    :attr:`waking` is set (the reader waits for items still missing), each
-    item set aside also puts :data:`WAKE` on the queue.
-
-    At most ``maxsize`` items wait aside; more raise :class:`queue.Full` (the
-    MQTT edge counts them as dropped).
-    """
-
-    def __init__(self, announce: Callable[[Any], bool], maxsize: int = 100_000) -> None:
-        super().__init__(maxsize)
-        self.announce = announce
-        self._aside: list[Any] = []
-        self._aside_lock = threading.Lock()
-        self._waking = False
-
-    def put_nowait(self, item: Any) -> None:
-        """Queue ``item``, or set it aside (see the class docstring)."""
-        if not self.announce(item):
-            with self._aside_lock:
-                if len(self._aside) >= self.maxsize > 0:
-                    raise queue.Full
-                self._aside.append(item)
-                if not self._waking:
-                    return
-            item = WAKE
-        super().put_nowait(item)
-
-    @property
-    def waking(self) -> bool:
-        """Whether items set aside wake the reader."""
-        with self._aside_lock:
-            return self._waking
-
-    @waking.setter
-    def waking(self, value: bool) -> None:
-        with self._aside_lock:
-            self._waking = value
-
-    def take_aside(self) -> list[Any]:
-        """The items set aside so far, oldest first; the list is emptied."""
-        with self._aside_lock:
-            taken, self._aside = self._aside, []
-        return taken

@@ -11,7 +11,7 @@ from __future__ import annotations
 import logging
 import time
 from collections.abc import Callable, Iterable, Mapping
-from dataclasses import dataclass, replace
+from dataclasses import dataclass, fields, replace
 from typing import Any, Protocol
 
 from ventsup import __version__
@@ -79,6 +79,14 @@ def _important(prev: ZoneState, new: ZoneState) -> bool:
         or prev.alarm_latched != new.alarm_latched
         or prev.alarm_clear_since != new.alarm_clear_since
     )
+
+
+_STATE_FIELDS = tuple(f.name for f in fields(ZoneState) if f.name != "last_t")
+
+
+def _changed(prev: ZoneState, new: ZoneState) -> bool:
+    """Whether anything but the time of the last evaluation differs (unsaved until it is saved)."""
+    return any(getattr(prev, name) != getattr(new, name) for name in _STATE_FIELDS)
 
 
 # --------------------------------------------------------------------------- supervisor
@@ -306,9 +314,10 @@ class Supervisor:
                     message.t, message.topic, message.payload, name, "accepted", result.value
                 )
             )
-            before = read_point(self.config, name, self.held, message.t)
+            # What the point read before this value; only an evaluating supervisor needs it.
+            before = read_point(self.config, name, self.held, message.t) if self.ready else None
             self.held = hold(self.held, result)
-            if self.ready:
+            if before is not None:
                 for zone_name in urgent_zones(self.config, name, before.value, result.value):
                     urgent.setdefault(zone_name, name)
         by_point: dict[str, list[str]] = {}
@@ -449,7 +458,7 @@ class Supervisor:
                 self.record(EventRecord(t, _event_kind(text), zone, who, text))
             if _important(prev, state):
                 self._save({zone: state}, t)
-            elif replace(prev, last_t=None) != replace(state, last_t=None):
+            elif _changed(prev, state):
                 self.unsaved.add(zone)
                 if self.unsaved_since is None:
                     self.unsaved_since = self.mono()

@@ -22,7 +22,11 @@ that one worker thread of the driver can own all state. What it takes care of
   no answer) raises :class:`MqttError` with what to check, instead of paho's
   silent retrying;
 - delivery of QoS 1 and 2 publishes tracked through on-publish; a publish the
-  broker refuses (MQTT 5 "Not authorized") becomes a :class:`PublishRefused` item.
+  broker refuses (MQTT 5 "Not authorized") becomes a :class:`PublishRefused` item;
+- for a lock-step exchange (``ventsup run --sim-clock`` and the simulator):
+  no network thread if asked (the caller polls), QoS 0 subscriptions, a burst
+  written corked into few TCP segments, and the socket read in large chunks
+  (paho alone makes three system calls per packet).
 
 Items put on the queue: :class:`Message`, :class:`Connected`,
 :class:`Disconnected`, :class:`ConnectRefused`, :class:`Subscribed`,
@@ -44,12 +48,13 @@ import contextlib
 import logging
 import os
 import queue
+import select
 import socket
 import ssl
 import threading
 import time
 from collections import OrderedDict
-from collections.abc import Callable, Mapping, Sequence
+from collections.abc import Callable, Iterator, Mapping, Sequence
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any, Literal
@@ -335,14 +340,74 @@ def _tls_context(tls: TlsSettings) -> _TrackingContext:
 
 # --------------------------------------------------------------------------- client
 
+# Bytes taken from the socket at once by _BufferedClient.
+_READ_CHUNK = 65536
+
+
+class _BufferedClient(paho.Client):
+    """paho's client, reading the socket in large chunks.
+
+    paho 2.x reads each packet with at least three receive calls (command
+    byte, length, body), and its loop reads one packet per ``select()`` when
+    no message waits for an acknowledgement (QoS 0 traffic): dozens of system
+    calls, each releasing the GIL, for a burst of small messages. Here a
+    receive takes up to 64 KiB, paho is served the bytes it asks for from
+    that buffer, and :meth:`loop_read` carries on while buffered bytes are
+    left (a ``select()`` cannot see them). The buffer belongs to one socket:
+    a new socket (a reconnect) starts empty.
+
+    This overrides paho's private ``_sock_recv`` (only ``_packet_read``
+    calls it), so it is tied to paho 2.x (pinned below 3). It is used only
+    for a client without a network thread (the lock-step exchange of
+    ``ventsup run --sim-clock`` and the simulator), whose broker tests
+    exercise it with every message; the live daemon runs stock paho.
+    """
+
+    _rsock: object = None
+    _rbuf: bytes = b""
+    _rpos: int = 0
+
+    def _sock_recv(self, bufsize: int) -> bytes:
+        if self._rsock is not self._sock or self._rpos >= len(self._rbuf):
+            self._rsock, self._rbuf, self._rpos = None, b"", 0
+            data: bytes = super()._sock_recv(_READ_CHUNK)  # raises BlockingIOError when dry
+            if not data:
+                return data
+            self._rsock, self._rbuf = self._sock, data
+        start = self._rpos
+        self._rpos = start + bufsize
+        return self._rbuf[start : self._rpos]
+
+    def loop_read(self, max_packets: int = 1) -> MQTTErrorCode:
+        rc = super().loop_read(max_packets)
+        while (
+            rc == MQTTErrorCode.MQTT_ERR_SUCCESS
+            and self._sock is not None
+            and self._rsock is self._sock
+            and self._rpos < len(self._rbuf)
+        ):
+            rc = super().loop_read(max_packets)
+        return rc
+
 
 class MqttClient:
     """One connection to the broker, kept up by paho's network thread.
 
     ``sink`` receives the items (see the module docstring); ``subscriptions``
-    are topic filters subscribed at QoS 1 after every connect. Use
-    :meth:`connect` once, :meth:`publish` from any thread (never from a
-    callback while waiting), and :meth:`close` at the end.
+    are topic filters subscribed at ``subscription_qos`` (default 1) after
+    every connect. A subscriber that has its own check of completeness (the
+    simulator's lock-step counts) may take QoS 0: the broker then sends it
+    no message that waits for an acknowledgement.
+
+    With ``network_thread=False`` no paho thread is started: the one thread
+    that uses the client drives the network itself with :meth:`poll`, the
+    callbacks run inside it, and a publish is written to the socket at once.
+    That is for a lock-step exchange (one thread that publishes, then waits
+    for the answer): it saves a thread hand-off per message. Connection
+    losses are retried from :meth:`poll`, at most every ``reconnect_min``;
+    publish, poll and close from that thread only. Use :meth:`connect` once,
+    :meth:`publish` from any thread (never from a callback while waiting),
+    and :meth:`close` at the end.
     """
 
     def __init__(
@@ -352,8 +417,15 @@ class MqttClient:
         *,
         subscriptions: Sequence[str] = (),
         clock: Clock | None = None,
+        subscription_qos: int = 1,
+        network_thread: bool = True,
     ) -> None:
+        if subscription_qos not in (0, 1, 2):
+            raise ValueError(f"subscription_qos must be 0, 1 or 2, got {subscription_qos!r}")
         self.settings = settings
+        self._subscription_qos = subscription_qos
+        self._network_thread = network_thread
+        self._next_reconnect = 0.0
         self._sink: queue.Queue[Any] = sink if sink is not None else queue.Queue()
         self._subscriptions = tuple(dict.fromkeys(subscriptions))
         self._clock = clock if clock is not None else WallClock()
@@ -372,6 +444,7 @@ class MqttClient:
         self._closing = False
         self._started = False
         self._tls_context: _TrackingContext | None = None
+        self._tracking = False  # whether on_publish is set
         self._client = self._make_client()
 
     # ----------------------------------------------------------------- setup
@@ -379,7 +452,10 @@ class MqttClient:
     def _make_client(self) -> paho.Client:
         s = self.settings
         v5 = s.protocol == "5"
-        client = paho.Client(
+        # The chunked reader overrides a private paho method: only the lock-step exchange,
+        # where it pays, relies on it; a live daemon (a few messages a second) runs stock paho.
+        client_class = paho.Client if self._network_thread else _BufferedClient
+        client = client_class(
             CallbackAPIVersion.VERSION2,
             client_id=s.client_id,
             protocol=MQTTProtocolVersion.MQTTv5 if v5 else MQTTProtocolVersion.MQTTv311,
@@ -406,7 +482,8 @@ class MqttClient:
         client.on_connect_fail = self._guard("connect_fail", self._on_connect_fail)
         client.on_disconnect = self._guard("disconnect", self._on_disconnect)
         client.on_message = self._guard("message", self._on_message)
-        client.on_publish = self._guard("publish", self._on_publish)
+        # on_publish is set with the first QoS 1 or 2 publish (see publish()): for QoS 0,
+        # paho calls it after every write with two new objects, and nothing waits for it.
         client.on_subscribe = self._guard("subscribe", self._on_subscribe)
         return client
 
@@ -453,7 +530,9 @@ class MqttClient:
             self._connected = True
             self._counts["connects"] += 1
         if self._subscriptions:
-            result, mid = client.subscribe([(topic, 1) for topic in self._subscriptions])
+            result, mid = client.subscribe(
+                [(topic, self._subscription_qos) for topic in self._subscriptions]
+            )
             if result == MQTTErrorCode.MQTT_ERR_SUCCESS and mid is not None:
                 with self._cond:
                     self._subscribe_mids[mid] = self._subscriptions
@@ -595,8 +674,15 @@ class MqttClient:
         except (OSError, ValueError) as exc:
             why = exc.strerror if isinstance(exc, OSError) and exc.strerror else str(exc)
             raise MqttError(f"cannot connect to the MQTT broker at {s.where}: {why}") from exc
-        self._client.loop_start()
-        if not self._first_connack.wait(s.connect_timeout):
+        if self._network_thread:
+            self._client.loop_start()
+            accepted = self._first_connack.wait(s.connect_timeout)
+        else:
+            deadline = time.monotonic() + s.connect_timeout
+            while not self._first_connack.is_set() and time.monotonic() < deadline:
+                self._run_once(min(0.1, max(0.0, deadline - time.monotonic())))
+            accepted = self._first_connack.is_set()
+        if not accepted:
             self._stop_network()
             raise MqttError(
                 f"the broker at {s.where} did not accept the MQTT connection within "
@@ -629,6 +715,9 @@ class MqttClient:
             An invalid topic or payload, or the in-memory queue is full.
         """
         started = time.monotonic()
+        if qos > 0 and not self._tracking:  # before the publish: its ack may come at once
+            self._tracking = True
+            self._client.on_publish = self._guard("publish", self._on_publish)
         try:
             info = self._client.publish(topic, payload, qos=qos, retain=retain)
         except (ValueError, TypeError) as exc:
@@ -648,6 +737,100 @@ class MqttClient:
                     self._acks.pop(info.mid, None)  # a stale one from a wrapped-around mid
                     self._pending[info.mid] = topic
         return int(info.mid)
+
+    @contextlib.contextmanager
+    def corked(self) -> Iterator[None]:
+        """Hold back what is written inside the block and send it as few TCP segments.
+
+        With TCP_NODELAY every publish is a segment of its own, and on
+        loopback each one wakes the broker: a burst of small messages (a
+        simulator's step) costs a process switch per message. With
+        ``TCP_CORK`` (Linux) the kernel keeps them until the block ends.
+        Only what is written to the socket inside the block is held: with a
+        network thread that writes later, or on a system without
+        ``TCP_CORK``, this changes nothing. Never changes what is sent.
+        """
+        sock = self._client.socket()
+        cork = getattr(socket, "TCP_CORK", None)
+        if cork is None or not isinstance(sock, socket.socket):
+            yield
+            return
+        try:
+            sock.setsockopt(socket.IPPROTO_TCP, cork, 1)
+        except OSError:  # a socket closed under us: nothing to hold back
+            yield
+            return
+        try:
+            yield
+        finally:
+            with contextlib.suppress(OSError):
+                sock.setsockopt(socket.IPPROTO_TCP, cork, 0)
+
+    def poll(self, timeout: float) -> None:
+        """Send and receive for up to ``timeout`` [s]; only for a client without a network thread.
+
+        Returns after the first batch of incoming packets has been handled
+        (their callbacks run here), or after ``timeout``. While the
+        connection is lost it tries to reconnect, at most every
+        ``reconnect_min`` seconds, waiting in between.
+
+        Raises
+        ------
+        RuntimeError
+            The client has a network thread, or :meth:`connect` was not called.
+        """
+        if self._network_thread or not self._started:
+            raise RuntimeError("poll() is for a connected client made with network_thread=False")
+        rc = self._run_once(max(0.0, timeout))
+        if rc == MQTTErrorCode.MQTT_ERR_SUCCESS or self._closing:
+            return
+        now = time.monotonic()
+        if now < self._next_reconnect:
+            time.sleep(min(max(0.0, timeout), self._next_reconnect - now))  # reconnect backoff
+            return
+        self._next_reconnect = now + max(self.settings.reconnect_min, 0.1)
+        try:
+            self._client.reconnect()
+        except (OSError, ValueError) as exc:
+            _log.debug("reconnect to %s failed: %s", self.settings.where, exc)
+
+    def _run_once(self, timeout: float) -> MQTTErrorCode:
+        """One turn of paho's external-loop API: wait for the socket, read, write, keep alive.
+
+        Not paho's own ``loop()``: that makes a socket pair for other threads to
+        wake it with, and then every publish writes a byte to it (a system
+        call per message that nobody needs here).
+        """
+        client = self._client
+        sock = client.socket()
+        if sock is None:
+            return MQTTErrorCode.MQTT_ERR_NO_CONN
+        buffered = isinstance(sock, ssl.SSLSocket) and sock.pending() > 0  # not seen by select
+        try:
+            readable, _, _ = select.select(
+                [sock], [sock] if client.want_write() else [], [], 0.0 if buffered else timeout
+            )
+        except (OSError, ValueError):  # closed under us: paho finds out when it reads
+            readable = [sock]
+        rc = MQTTErrorCode.MQTT_ERR_SUCCESS
+        if readable or buffered:
+            rc = client.loop_read()
+        if rc == MQTTErrorCode.MQTT_ERR_SUCCESS and client.want_write():
+            rc = client.loop_write()
+        if rc == MQTTErrorCode.MQTT_ERR_SUCCESS:
+            rc = client.loop_misc()
+        return rc
+
+    def _wait(self, timeout: float) -> None:
+        """Wait for a callback (call with the lock held); pumps the network without a thread."""
+        if self._network_thread:
+            self._cond.wait(timeout)
+            return
+        self._cond.release()
+        try:
+            self.poll(min(timeout, 0.1))
+        finally:
+            self._cond.acquire()
 
     def wait_delivered(self, mid: int, timeout: float) -> str | None:
         """Wait until publish ``mid`` (QoS 1 or 2) is acknowledged.
@@ -669,7 +852,7 @@ class MqttClient:
                         f"the broker at {self.settings.where} did not acknowledge a publish "
                         f"to {self._pending[mid]!r} within {timeout:g} s"
                     )
-                self._cond.wait(remaining)
+                self._wait(remaining)
             ack = self._acks.get(mid)
             return None if ack is None else ack[1]
 
@@ -681,7 +864,7 @@ class MqttClient:
                 remaining = deadline - time.monotonic()
                 if remaining <= 0:
                     return False
-                self._cond.wait(remaining)
+                self._wait(remaining)
             return True
 
     def close(self, timeout: float = 3.0) -> None:
