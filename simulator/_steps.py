@@ -84,7 +84,7 @@ from ventsup.core.horizon import (
     timers,
     zone_features,
 )
-from ventsup.core.inputs import Held, Sample, zone_inputs
+from ventsup.core.inputs import Held, Sample, zone_inputs, zone_points
 from ventsup.core.state import Cause, Decision, Mode, ZoneState
 
 FloatArray = npt.NDArray[np.float64]
@@ -104,26 +104,6 @@ _NONE = object()  # nothing held / no value (faulted points)
 
 # Kinds of per-step points.
 TEMPERATURE, CO2, HEATING, POSITION = 0, 1, 2, 3
-
-
-def zone_points(config: SiteConfig, zone: str) -> list[str]:
-    """Every point :func:`ventsup.core.inputs.zone_inputs` reads for ``zone``."""
-    outdoor = config.outdoor
-    spec = config.zones[zone]
-    names = [
-        outdoor.temperature,
-        outdoor.humidity,
-        outdoor.dew_point,
-        outdoor.wind_speed,
-        outdoor.wind_direction,
-        outdoor.rain,
-        *spec.temperature.sensors,
-        spec.co2,
-        spec.heating,
-        *spec.smoke_alarms,
-        *(o.feedback for o in spec.openings.values()),
-    ]
-    return list(dict.fromkeys(n for n in names if n is not None))
 
 
 @dataclass

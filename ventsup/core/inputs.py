@@ -55,6 +55,7 @@ __all__ = [
     "hold",
     "read_point",
     "zone_inputs",
+    "zone_points",
 ]
 
 Status = Literal["ok", "stale", "missing"]
@@ -435,6 +436,26 @@ class ZoneInputs:
                 f"stale names {unknown} match no input; expected some of {sorted(made)}"
             )
         return inputs
+
+
+def zone_points(config: SiteConfig, zone: str) -> list[str]:
+    """Every point :func:`zone_inputs` reads for ``zone``, each once, in a fixed order."""
+    outdoor = config.outdoor
+    spec = config.zones[zone]
+    names = [
+        outdoor.temperature,
+        outdoor.humidity,
+        outdoor.dew_point,
+        outdoor.wind_speed,
+        outdoor.wind_direction,
+        outdoor.rain,
+        *spec.temperature.sensors,
+        spec.co2,
+        spec.heating,
+        *spec.smoke_alarms,
+        *(o.feedback for o in spec.openings.values()),
+    ]
+    return list(dict.fromkeys(n for n in names if n is not None))
 
 
 def zone_inputs(config: SiteConfig, zone_name: str, held: Held, t: float) -> ZoneInputs:

@@ -59,7 +59,7 @@ from ventsup.core.horizon import (
     timers,
     zone_features,
 )
-from ventsup.core.inputs import Held, Sample, zone_inputs
+from ventsup.core.inputs import Held, Sample, zone_inputs, zone_points
 from ventsup.core.state import OverrideRequest, ZoneState
 from ventsup.core.urgency import wind_levels
 from ventsup.drivers.replay import TICK, Evaluation, Run, RunBuilder, run_key
@@ -143,26 +143,6 @@ class ZoneResult:
     evaluations: int
     decisions: int
     indoor: Indoor = Indoor(0.0, 0.0, None)
-
-
-def zone_points(config: SiteConfig, zone: str) -> list[str]:
-    """Every point :func:`ventsup.core.inputs.zone_inputs` reads for ``zone``."""
-    outdoor = config.outdoor
-    spec = config.zones[zone]
-    names = [
-        outdoor.temperature,
-        outdoor.humidity,
-        outdoor.dew_point,
-        outdoor.wind_speed,
-        outdoor.wind_direction,
-        outdoor.rain,
-        *spec.temperature.sensors,
-        spec.co2,
-        spec.heating,
-        *spec.smoke_alarms,
-        *(o.feedback for o in spec.openings.values()),
-    ]
-    return list(dict.fromkeys(n for n in names if n is not None))
 
 
 # --------------------------------------------------------------------------- plans
