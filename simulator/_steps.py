@@ -558,6 +558,8 @@ class Loop:
         self.target_rows = np.empty((n, openings))
         self.outcomes = np.empty((zones, n, 4), dtype=np.int8)
         self.changes: list[Change] = []
+        # (t, zone, reason) whenever the reason of a zone's latest decision changes.
+        self.reasons: list[tuple[float, str, str]] = []
         self.all_points = list(config.points)
         self.calls = 0  # of the controller (or the core)
         self.dew_point: tuple[FloatArray, BoolArray, FloatArray] = (
@@ -675,6 +677,8 @@ class Loop:
         wanted = decision.targets
         if previous is None or decision.mode is not previous.mode or wanted != previous.targets:
             self.changes.append(_change(self.t_list[k], decision))
+        if previous is None or decision.reason != previous.reason:
+            self.reasons.append((self.t_list[k], decision.zone, decision.reason))
         zone.decision = decision
         zone.outcome = (
             _MODE_INDEX[decision.mode],

@@ -75,7 +75,9 @@ from simulator.weather import Weather, to_epoch_seconds
 from ventsup.config.model import Period, PointKind, SiteConfig
 from ventsup.core import physics, psychro
 from ventsup.core.decide import decide
-from ventsup.core.inputs import Held, zone_inputs
+from ventsup.core.figures import FACTS, decisions_to_frame
+from ventsup.core.horizon import Readings, zone_features
+from ventsup.core.inputs import Held, zone_inputs, zone_points
 from ventsup.core.state import Cause, Decision, Layer, Mode, ZoneState
 
 __all__ = [
@@ -181,7 +183,10 @@ class Result:
     ``sensors``: the value each point published (NaN: nothing published).
     ``changes``: one row whenever a zone's mode or targets change, with the
     reason. ``calls``: how often the controller (or the decision core) was
-    asked, all zones together.
+    asked, all zones together. ``published``: what ``sensors`` holds, in full
+    precision (float64 per point). ``reasons``: ``time``, ``zone``, ``reason``,
+    one row whenever the reason of a zone's latest decision changes (the core
+    gives its reason at every call, also where the outcome stays the same).
     """
 
     config: SiteConfig
@@ -193,6 +198,116 @@ class Result:
     changes: pd.DataFrame
     unsourced_points: tuple[str, ...] = ()
     calls: int = 0
+    published: Mapping[str, FloatArray] = field(default_factory=dict)
+    reasons: pd.DataFrame = field(
+        default_factory=lambda: pd.DataFrame(
+            {"time": pd.to_datetime([], utc=True), "zone": [], "reason": []}
+        )
+    )
+
+    def readings(self, names: Iterable[str] | None = None) -> dict[str, Readings]:
+        """Each point's reading at every step as the core read it (all published points
+        by default): the last sample published at or before the step, fresh while no
+        older than the point's ``stale_after`` (as :func:`ventsup.core.inputs.read_point`).
+        A point that published nothing is absent."""
+        t = to_epoch_seconds(pd.DatetimeIndex(self.outdoor.index))
+        steps = np.arange(t.size, dtype=np.int64)
+        found: dict[str, Readings] = {}
+        for name in self.published if names is None else names:
+            values = self.published.get(name)
+            if values is None:
+                continue
+            last = np.where(np.isnan(values), -1, steps)
+            np.maximum.accumulate(last, out=last)
+            safe = np.maximum(last, 0)
+            ok = (last >= 0) & (t - t[safe] <= self.config.points[name].stale_after)
+            found[name] = Readings(ok, np.where(ok, values[safe], np.nan))
+        return found
+
+    def decisions_frame(self) -> pd.DataFrame:
+        """The decisions table of :func:`ventsup.core.figures.decisions_to_frame`, one row
+        per step and zone (ordered by time, then zone), without asking the core again.
+
+        The outcome (mode, layer, cause, targets, windows open) is the step's row of
+        :attr:`zones`; the reason that of the zone's latest decision (:attr:`reasons`;
+        where the core's outcome repeats, its reason text may differ from the one a
+        call at that step would give, such as a temperature it quotes); the open area
+        and the facts are read from what the points published, as the core reads them
+        (:meth:`readings`, :func:`ventsup.core.horizon.zone_features` for the indoor
+        temperature and the outdoor dew point).
+        """
+        config = self.config
+        t = to_epoch_seconds(pd.DatetimeIndex(self.outdoor.index))
+        n = t.size
+        openings = sorted({name for zone in config.zones.values() for name in zone.openings})
+        # Each reason's step: the one nearest its time (the steps are ``step`` apart).
+        index_ns = pd.DatetimeIndex(self.outdoor.index).as_unit("ns").asi8
+        half_step = round(self.step * 5e8)
+        reason_ns = pd.DatetimeIndex(self.reasons["time"]).as_unit("ns").asi8
+        reason_step = np.searchsorted(index_ns, reason_ns + half_step, side="right") - 1
+        reason_zone = self.reasons["zone"].to_numpy(dtype=object)
+        reason_text = self.reasons["reason"].to_numpy(dtype=object)
+        outdoor = config.outdoor
+        frames = []
+        for order, (zone, frame) in enumerate(self.zones.items()):
+            spec = config.zones[zone]
+            readings = self.readings(zone_points(config, zone))
+            features = zone_features(config, zone, readings, n)
+
+            def values(name: str | None, readings: Mapping[str, Readings] = readings) -> FloatArray:
+                found = readings.get(name) if name is not None else None
+                return np.full(n, np.nan) if found is None else found.value
+
+            mine = reason_zone == zone
+            at = np.searchsorted(reason_step[mine], np.arange(n), side="right") - 1
+            texts = np.append(reason_text[mine], "")  # "": before the zone's first decision
+            reason = texts[np.where(at >= 0, at, texts.size - 1)]
+            open_area = np.zeros(n)
+            for name, opening in spec.openings.items():
+                target = frame[f"target.{name}"].to_numpy()
+                feedback = values(opening.feedback)
+                position = np.where(np.isnan(target), np.nan_to_num(feedback, nan=1.0), target)
+                open_area = open_area + opening.area * position
+            columns: dict[str, Any] = {
+                "t": t,
+                "zone": np.full(n, zone, dtype=object),
+                "mode": frame["mode"].astype(str).to_numpy(dtype=object),
+                "layer": frame["layer"].to_numpy(dtype=np.int64),
+                "cause": frame["cause"].astype(str).to_numpy(dtype=object),
+                "reason": reason,
+                "windows_open": frame["windows_open"].to_numpy(dtype=bool),
+                "open_area": np.round(open_area, 9),
+            }
+            for name in openings:
+                column = f"target.{name}"
+                columns[f"target:{name}"] = (
+                    frame[column].to_numpy(dtype=np.float64)
+                    if name in spec.openings
+                    else np.full(n, np.nan)
+                )
+            facts = {
+                "temp_indoor": features.temp_indoor,
+                "temp_outdoor": values(outdoor.temperature),
+                "dew_point_outdoor": features.dew_point_outdoor,
+                "co2": values(spec.co2),
+                "heating": np.zeros(n) if spec.heating is None else values(spec.heating),
+                "occupied": frame["occupied"].to_numpy(dtype=np.float64),
+                "wind_speed": values(outdoor.wind_speed),
+                "wind_direction": values(outdoor.wind_direction),
+                "rain": values(outdoor.rain),
+            }
+            for name in FACTS:
+                columns[f"fact:{name}"] = facts[name]
+            columns["_order"] = np.full(n, order)
+            frames.append(pd.DataFrame(columns))
+        if not frames:
+            return decisions_to_frame([], config)
+        table = pd.concat(frames, ignore_index=True)
+        table = table.sort_values(["t", "_order"], kind="stable", ignore_index=True)
+        table = table.drop(columns="_order")
+        for name in ("zone", "mode", "cause", "reason"):
+            table[name] = pd.Series(table[name].to_numpy(), dtype=str)
+        return table
 
     def summary(self) -> pd.DataFrame:
         """Per zone: hours by use, comfort and energy.
@@ -730,6 +845,7 @@ class _Plan:
             loop.changes,
             opening_zone,
             initial_temperature,
+            loop.reasons,
         )
 
     def _kernel_arrays(
@@ -832,6 +948,7 @@ class _Plan:
         changes: list[_steps.Change],
         opening_zone: list[int],
         initial_temperature: float,
+        reasons: list[tuple[float, str, str]],
     ) -> Result:
         times = self.times
         n = len(times)
@@ -898,6 +1015,11 @@ class _Plan:
                 sensor_data[name] = np.where((values < low) | (values > high), np.nan, values)
         for name, recorded in faulted_rows.items():
             sensor_data[name] = np.asarray(recorded)
+        published = {
+            name: np.asarray(sensor_data[name], dtype=np.float64)
+            for name in self.config.points
+            if name in sensor_data
+        }
         sensor_frame = pd.DataFrame(
             {
                 name: np.asarray(sensor_data[name], dtype=np.float32)
@@ -910,6 +1032,8 @@ class _Plan:
             changes, columns=["t", "zone", "mode", "layer", "cause", "targets", "reason"]
         )
         change_frame.insert(0, "time", pd.to_datetime(change_frame.pop("t"), unit="s", utc=True))
+        reason_frame = pd.DataFrame(reasons, columns=["t", "zone", "reason"])
+        reason_frame.insert(0, "time", pd.to_datetime(reason_frame.pop("t"), unit="s", utc=True))
         return Result(
             config=self.config,
             building=self.building,
@@ -920,6 +1044,8 @@ class _Plan:
             changes=change_frame,
             unsourced_points=self.unsourced,
             calls=self.decide_calls,
+            published=published,
+            reasons=reason_frame,
         )
 
     def _indoor(self, zone: _Zone, temp_air: FloatArray, gradient: FloatArray) -> FloatArray:

@@ -7,7 +7,10 @@ seeded synthetic weather, a scripted month of showers, a smoke drill, gusts,
 a sensor dropout and a jammed vent) publishes sensor values, the same
 decision core the daemon runs decides every minute, and the simulator moves
 the openings. It ends with the monthly report written to ``out/demo/`` and a
-one-screen summary.
+one-screen summary. The core is asked only at the minutes whose outcome is
+not known from the last one (see :mod:`simulator._steps`); the report's table
+of decisions, one row per minute and zone, is read from the run
+(:func:`simulate`), with the same figures as asking it every minute.
 
 The coupling is in-process: no broker and no database are needed. The same
 month over MQTT against a running ``ventsup run`` is what
@@ -30,9 +33,17 @@ from typing import TYPE_CHECKING, Any, TextIO
 from zoneinfo import ZoneInfo
 
 if TYPE_CHECKING:
+    from collections.abc import Callable
+
+    import pandas as pd
+
+    from simulator.building import Building
+    from simulator.loop import Result
+    from simulator.scenario import Scenario
+    from simulator.weather import Weather
     from ventsup.config.model import SiteConfig
 
-__all__ = ["CAUTIONS", "add_arguments", "main"]
+__all__ = ["CAUTIONS", "add_arguments", "main", "simulate"]
 
 CAUTIONS = (
     "Safety: life-safety smoke control belongs to the listed fire system; ventsup only "
@@ -77,18 +88,63 @@ def main(args: argparse.Namespace | None = None) -> int:
 
 
 class _Recorder:
-    """The decision core as the simulator's controller, keeping every decision."""
+    """The decision core as the simulator's controller, asked every step, keeping every
+    decision (the reference :func:`simulate` is tested against)."""
 
     def __init__(self, config: SiteConfig) -> None:
         from simulator.loop import CoreController
 
-        self._core = CoreController(config)
+        self._core = CoreController(config, skip_repeats=False)
         self.decisions: list[Any] = []
 
     def __call__(self, zone: str, held: Any, state: Any, t: float) -> Any:
         decision, next_state = self._core(zone, held, state, t)
         self.decisions.append(decision)
         return decision, next_state
+
+
+def simulate(
+    config: SiteConfig,
+    building: Building,
+    weather: Weather,
+    scenario: Scenario | None,
+    start: object,
+    end: object,
+    step: float,
+    *,
+    every_step: bool = False,
+    progress: Callable[[float], None] | None = None,
+) -> tuple[Result, pd.DataFrame]:
+    """The closed loop from ``start`` to ``end`` and the monthly report's decisions table.
+
+    By default the simulator asks the decision core only where its outcome is not
+    known (:class:`simulator.loop.CoreController` with ``skip_repeats``), and the
+    table, one row per step and zone, is read from the run
+    (:meth:`simulator.loop.Result.decisions_frame`). ``every_step``: ask the core
+    every step and tabulate its decisions (:func:`ventsup.core.figures.decisions_to_frame`):
+    the reference, several times slower, whose report figures the default's equal
+    (``tests/simulator/test_demo_frame.py``). Only the reason text differs, where the
+    core's outcome repeats: the table keeps the reason of the core's latest call.
+    """
+    from simulator.loop import run
+    from ventsup.core.figures import decisions_to_frame
+
+    if not every_step:
+        result = run(config, building, weather, scenario, start, end, step, progress=progress)
+        return result, result.decisions_frame()
+    recorder = _Recorder(config)
+    result = run(
+        config,
+        building,
+        weather,
+        scenario,
+        start,
+        end,
+        step,
+        controller=recorder,
+        progress=progress,
+    )
+    return result, decisions_to_frame(recorder.decisions, config)
 
 
 def _bar(label: str, out: TextIO) -> Any:
@@ -111,10 +167,8 @@ def _simulate_month(config: SiteConfig, out_dir: Path, step: float, out: TextIO)
     import pandas as pd
 
     from simulator.building import load_building
-    from simulator.loop import run
     from simulator.scenario import load_scenario
     from simulator.weather import synthetic
-    from ventsup.core.figures import decisions_to_frame
     from ventsup.drivers.reporting import write_report
 
     site = config.site
@@ -136,8 +190,7 @@ def _simulate_month(config: SiteConfig, out_dir: Path, step: float, out: TextIO)
         f"Scenario: {scenario.name}.",
         file=out,
     )
-    recorder = _Recorder(config)
-    result = run(
+    result, frame = simulate(
         config,
         building,
         weather,
@@ -145,11 +198,9 @@ def _simulate_month(config: SiteConfig, out_dir: Path, step: float, out: TextIO)
         warm_up,
         end,
         step,
-        controller=recorder,
         progress=_bar("simulating", sys.stderr),
     )
     print("writing the monthly report ...", file=sys.stderr, flush=True)
-    frame = decisions_to_frame(recorder.decisions, config)
     paths = write_report(config, frame, start.timestamp(), end.timestamp(), out_dir)
 
     june = {zone: frame[frame.index >= start] for zone, frame in result.zones.items()}
