@@ -222,8 +222,10 @@ def test_broker_restart_resubscribes_without_duplicate_moves(
         watch.message(t["south"], lambda p: p == b"60")
         # QoS 1 is at least once: a command the broker had delivered but not yet
         # acknowledged when it stopped is sent again by paho after the reconnect, by the
-        # protocol and not by the daemon. Stop the broker once every ack is in, so that a
-        # second command below can only be one the daemon decided to send.
+        # protocol and not by the daemon. Stop the broker once the daemon has published the
+        # zone state that follows its commands and every ack is in, so that a second
+        # command below can only be one the daemon decided to send.
+        watch.json(t["hall"], lambda s: s["mode"] == "free_cooling")
         assert service.mqtt is not None and service.mqtt.wait_all_delivered(WAIT)
 
         mosquitto.stop()  # retained messages and sessions are gone with it
