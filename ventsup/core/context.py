@@ -6,9 +6,9 @@ units and the site's wall-clock time.
 
 from __future__ import annotations
 
-from dataclasses import dataclass
 from datetime import datetime
-from functools import cached_property
+from functools import lru_cache
+from math import copysign
 from typing import Protocol
 from zoneinfo import ZoneInfo
 
@@ -40,36 +40,69 @@ def known(reading: ReadingLike) -> bool:
     return reading.status == "ok" and reading.value is not None
 
 
-@dataclass(frozen=True)
+# The site's local time of an evaluation time: every zone evaluated at one tick asks
+# for the same one. A bounded memo of a pure function (datetimes are immutable).
+_local_time = lru_cache(maxsize=64)(datetime.fromtimestamp)
+
+# format_quantity is pure and the same few values recur at every evaluation (the
+# rule set's limits, held readings): a bounded memo saves most of the formatting.
+# typed=True keeps ints, floats and bools apart.
+_format_memo = lru_cache(maxsize=4096, typed=True)(format_quantity)
+
+
 class Context:
-    """One zone, its rules, its inputs and its previous state, at time ``t``."""
+    """One zone, its rules, its inputs and its previous state, at time ``t``.
+
+    Read-only by convention. The zone, its rules and openings are plain
+    attributes set once here (the layers read them dozens of times per
+    evaluation); the local time is worked out on first use only.
+    """
+
+    __slots__ = (
+        "_local",
+        "_units",
+        "config",
+        "inputs",
+        "openings",
+        "rules",
+        "state",
+        "t",
+        "tz",
+        "zone",
+        "zone_name",
+    )
 
     config: SiteConfig
     zone_name: str
     inputs: object  # ventsup.core.inputs.ZoneInputs; typed loosely to keep layers decoupled
     state: ZoneState
     t: float
+    zone: Zone
+    rules: RuleSet
+    openings: dict[str, Opening]
+    tz: ZoneInfo
 
-    @cached_property
-    def zone(self) -> Zone:
-        return self.config.zones[self.zone_name]
+    def __init__(
+        self, config: SiteConfig, zone_name: str, inputs: object, state: ZoneState, t: float
+    ) -> None:
+        self.config = config
+        self.zone_name = zone_name
+        self.inputs = inputs
+        self.state = state
+        self.t = t
+        self.zone = config.zones[zone_name]
+        self.rules = config.rules[self.zone.rules]
+        self.openings = self.zone.openings
+        self.tz = ZoneInfo(config.site.time_zone)  # zoneinfo keeps one instance per key
+        self._units = config.site.units
+        self._local: datetime | None = None
 
-    @cached_property
-    def rules(self) -> RuleSet:
-        return self.config.rules[self.zone.rules]
-
-    @cached_property
-    def openings(self) -> dict[str, Opening]:
-        return self.zone.openings
-
-    @cached_property
-    def tz(self) -> ZoneInfo:
-        return ZoneInfo(self.config.site.time_zone)
-
-    @cached_property
+    @property
     def local(self) -> datetime:
         """``t`` as wall-clock time in the site's time zone."""
-        return datetime.fromtimestamp(self.t, self.tz)
+        if self._local is None:
+            self._local = _local_time(self.t, self.tz)
+        return self._local
 
     def clock(self, t: float | None) -> str:
         """Wall-clock ``HH:MM`` of a time (with the date when it is not today)."""
@@ -82,7 +115,10 @@ class Context:
 
     def fmt(self, value: float | None, quantity: str) -> str:
         """A value in the site's display units."""
-        return format_quantity(value, quantity, self.config.site.units)
+        if value is None or (value == 0.0 and copysign(1.0, value) < 0.0):
+            # -0.0 is an equal key to 0.0 but formats differently ("-0 %"): not memoised
+            return format_quantity(value, quantity, self._units)
+        return _format_memo(value, quantity, self._units)
 
     def input(self, name: str) -> ReadingLike:
         """One of the zone inputs by field name."""

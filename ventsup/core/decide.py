@@ -2,7 +2,10 @@
 
 :func:`decide` is pure: it reads no clock, does no I/O, keeps no global state
 and does not mutate its arguments. The live daemon, the replay and the
-simulator all call it, so a rule behaves the same everywhere.
+simulator all call it, so a rule behaves the same everywhere. (A few bounded
+memos of pure functions, the site's local time, display formatting and the
+outdoor dew point, save recomputing the same values at every evaluation; they
+never change a result, see tests/core/test_decide_identity.py.)
 
 How the layers combine
 ----------------------

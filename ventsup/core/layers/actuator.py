@@ -8,7 +8,7 @@ layer). A step to fully closed or fully open is never skipped for being small.
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from typing import NamedTuple
 
 from ventsup.core.context import Context
 
@@ -17,8 +17,9 @@ __all__ = ["HOUR", "CareResult", "apply", "recent_moves"]
 HOUR = 3600.0
 
 
-@dataclass(frozen=True)
-class CareResult:
+# A NamedTuple, not a frozen dataclass: built at every evaluation, and a frozen
+# dataclass pays one object.__setattr__ per field.
+class CareResult(NamedTuple):
     """Targets after actuator care, why any opening was held, and the small steps skipped.
 
     A skipped small step is not a hold: the opening is already within the

@@ -9,7 +9,7 @@ positions, or a fixed fraction).
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from typing import NamedTuple
 
 from ventsup.core.context import Context, known
 from ventsup.core.state import Cause, Layer, Limit
@@ -17,8 +17,9 @@ from ventsup.core.state import Cause, Layer, Limit
 __all__ = ["FaultResult", "evaluate"]
 
 
-@dataclass(frozen=True)
-class FaultResult:
+# A NamedTuple, not a frozen dataclass: built at every evaluation, and a frozen
+# dataclass pays one object.__setattr__ per field.
+class FaultResult(NamedTuple):
     """Caps for unknown inputs, and the fallback pin for an unknown indoor temperature."""
 
     limits: tuple[Limit, ...]

@@ -9,7 +9,7 @@ the moment a sensor comes back.
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass
+from typing import NamedTuple
 
 from ventsup.core.context import Context, known
 from ventsup.core.state import Cause, Layer, Limit, OpeningState, WindLatch
@@ -17,8 +17,9 @@ from ventsup.core.state import Cause, Layer, Limit, OpeningState, WindLatch
 __all__ = ["ProtectionResult", "angle_between", "evaluate"]
 
 
-@dataclass(frozen=True)
-class ProtectionResult:
+# A NamedTuple, not a frozen dataclass: built at every evaluation, and a frozen
+# dataclass pays one object.__setattr__ per field.
+class ProtectionResult(NamedTuple):
     """Limits in force and the timers to carry to the next evaluation."""
 
     limits: tuple[Limit, ...]
@@ -85,6 +86,9 @@ def _rain(ctx: Context, limits: list[Limit]) -> tuple[float | None, float | None
     return last_wet, since
 
 
+_NEVER_HIGH = WindLatch()
+
+
 def _latch(
     prev: WindLatch, speed: float, limit: float, ratio: float, hold: float, t: float
 ) -> WindLatch:
@@ -94,6 +98,8 @@ def _latch(
         return WindLatch(True, t)
     if prev.active and prev.last_high is not None and t - prev.last_high < hold:
         return prev
+    if not prev.active:
+        return prev  # calm and released already: the same latch, not a copy
     return WindLatch(False, prev.last_high)
 
 
@@ -116,7 +122,7 @@ def _wind(ctx: Context, limits: list[Limit]) -> dict[str, WindLatch]:
     }
     latches = {
         key: _latch(
-            ctx.state.wind.get(key, WindLatch()),
+            ctx.state.wind.get(key, _NEVER_HIGH),
             speed,
             limit,
             rules.reopen_ratio,

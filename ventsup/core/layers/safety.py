@@ -9,15 +9,16 @@ layer only makes sure ventsup never fights it.
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from typing import NamedTuple
 
 from ventsup.core.context import Context, known
 
 __all__ = ["AlarmResult", "evaluate"]
 
 
-@dataclass(frozen=True)
-class AlarmResult:
+# A NamedTuple, not a frozen dataclass: built at every evaluation, and a frozen
+# dataclass pays one object.__setattr__ per field.
+class AlarmResult(NamedTuple):
     """The alarm latch after this evaluation and what to do about it."""
 
     latched: bool

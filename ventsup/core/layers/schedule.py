@@ -8,8 +8,8 @@ repeated hour is inside a period that covers it both times.
 
 from __future__ import annotations
 
-from dataclasses import dataclass
 from datetime import datetime
+from typing import NamedTuple
 
 from ventsup.config.model import Period
 from ventsup.core.context import Context
@@ -18,8 +18,9 @@ from ventsup.core.state import Cause, Layer, Limit
 __all__ = ["ScheduleResult", "evaluate", "in_period"]
 
 
-@dataclass(frozen=True)
-class ScheduleResult:
+# A NamedTuple, not a frozen dataclass: built at every evaluation, and a frozen
+# dataclass pays one object.__setattr__ per field.
+class ScheduleResult(NamedTuple):
     """Which comfort functions the schedule allows now, and the security cap."""
 
     occupied: bool
@@ -33,8 +34,11 @@ def in_period(period: Period, local: datetime) -> bool:
     A period that crosses midnight belongs to the day it starts on:
     ``Fri 22:00-06:00`` covers Friday night until Saturday 06:00.
     """
-    minute = local.hour * 60 + local.minute
-    day = local.weekday()
+    return _in_period_at(period, local.weekday(), local.hour * 60 + local.minute)
+
+
+def _in_period_at(period: Period, day: int, minute: int) -> bool:
+    """:func:`in_period` at weekday ``day`` (Monday 0) and minute of the day ``minute``."""
     if period.start_minute < period.end_minute:
         return day in period.days and period.start_minute <= minute < period.end_minute
     return (day in period.days and minute >= period.start_minute) or (
@@ -42,18 +46,19 @@ def in_period(period: Period, local: datetime) -> bool:
     )
 
 
-def _any(periods: tuple[Period, ...], local: datetime) -> bool:
-    return any(in_period(p, local) for p in periods)
+def _any(periods: tuple[Period, ...], day: int, minute: int) -> bool:
+    return any(_in_period_at(period, day, minute) for period in periods)
 
 
 def evaluate(ctx: Context) -> ScheduleResult:
     """Evaluate the zone's schedule at the context's local time."""
     rules = ctx.rules
     local = ctx.local
-    occupied = _any(rules.schedule.occupied, local)
-    flush_hours = rules.night_flush.enabled and _any(rules.night_flush.hours, local)
+    day, minute = local.weekday(), local.hour * 60 + local.minute
+    occupied = _any(rules.schedule.occupied, day, minute)
+    flush_hours = rules.night_flush.enabled and _any(rules.night_flush.hours, day, minute)
     security = None
-    if _any(rules.schedule.security, local):
+    if _any(rules.schedule.security, day, minute):
         caps = {n: o.secure_position for n, o in ctx.openings.items()}
         limited = ", ".join(f"{n} {ctx.fmt(c, 'fraction')}" for n, c in caps.items() if c < 1.0)
         security = Limit(
