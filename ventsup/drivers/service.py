@@ -6,8 +6,9 @@ One worker thread owns all state (held samples, zone states, what was last
 commanded, counters, the ledger's batch writer) and is the only caller of the
 core. paho's network thread only puts items on the worker's queue (see
 :mod:`ventsup.edges.mqtt`; with a simulated clock there is no network
-thread: the worker polls the client, and its callbacks run in the worker); :meth:`Service.stop` (from the main thread's
-signal handler, or a test) puts a :class:`Stop` item.
+thread: the worker polls the client, and its callbacks run in the worker);
+:meth:`Service.stop` (from the main thread's signal handler, or a test) puts
+a :class:`Stop` item.
 :class:`~ventsup.drivers.supervisor.Supervisor` is the worker's logic without
 threads or broker, so it can be tested with a list standing in for the broker.
 
@@ -54,8 +55,9 @@ time from a simulator over MQTT instead of the wall clock, in lock-step: see
 argument. Only the worker's loop differs (:meth:`Service._sim_loop`: it
 drives the MQTT client itself, without paho's network thread, and writes a
 step's outputs and ack as one burst); the supervisor, and so decoding, urgent
-evaluation, commands, states and the ledger, are those of a live run. The ledger defaults to a ``-sim`` file beside
-the site's, so that simulated records never mix with real ones.
+evaluation, commands, states and the ledger, are those of a live run. The
+ledger defaults to a ``-sim`` file beside the site's, so that simulated
+records never mix with real ones.
 
 Restart safety
 --------------
