@@ -66,6 +66,7 @@ __all__ = [
     "day_period",
     "missing_reports",
     "month_period",
+    "page_name",
     "period_between",
     "range_period",
     "report_from_ledger",
@@ -236,8 +237,13 @@ def _base(config: SiteConfig, period: Period, out_dir: Path) -> Path:
     return out_dir / f"{config.slug}-{period.label}"
 
 
+def page_name(config: SiteConfig, period: Period) -> str:
+    """The file name of a period's report page, as :func:`write_report` writes it."""
+    return f"{config.slug}-{period.label}.html"
+
+
 def _page(config: SiteConfig, period: Period, out_dir: Path) -> Path:
-    return out_dir / f"{config.slug}-{period.label}.html"
+    return out_dir / page_name(config, period)
 
 
 def _write_text(path: Path, text: str) -> None:

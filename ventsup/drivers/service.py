@@ -113,7 +113,7 @@ _SIM_POLL = 0.2
 
 def default_ledger_path(config: SiteConfig, config_dir: Path) -> Path:
     """``controller.ledger`` (or ``var/ventsup-<slug>.db``), relative to the config's folder."""
-    name = config.controller.ledger or f"var/ventsup-{config.slug}.db"
+    name = config.ledger_name
     path = Path(name).expanduser()
     return path if path.is_absolute() else config_dir / path
 
