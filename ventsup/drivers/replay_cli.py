@@ -300,12 +300,14 @@ def replay_site(
     jobs: int = 1,
     reference: bool = False,
     progress: Callable[[int], None] | None = None,
+    cooling: bool = True,
 ) -> Replayed:
     """Replay ``log`` over ``plans`` (:func:`plans_for`) for one variant, fast or per step.
 
     The per-step ``reference`` makes its own evaluations (the daemon's rule,
     sample by sample) or takes the ``recording``'s, so that it checks the
-    fast path's plans too.
+    fast path's plans too. ``cooling`` computes the cooling delivered (one pass
+    of the report's figures per zone); without it ``cooling_kwh`` is NaN.
     """
     began = time.perf_counter()
     if not reference:
@@ -333,8 +335,12 @@ def replay_site(
             indoor = indoor_figures(config, zone, log, plans[zone], end)
             results.append(ZoneResult(zone, zone_runs, count, count, indoor))
     replayed = Replayed(name, config, plans, results, time.perf_counter() - began)
-    cooling = cooling_delivered(config, log, plans, results, start, end, evaluation_tick(plans))
-    replayed.figures = site_figures(results, start, end, cooling)
+    kwh = (
+        cooling_delivered(config, log, plans, results, start, end, evaluation_tick(plans))
+        if cooling
+        else None
+    )
+    replayed.figures = site_figures(results, start, end, kwh)
     return replayed
 
 
@@ -575,6 +581,8 @@ def cli_replay(args: argparse.Namespace) -> int:
                 jobs=args.jobs,
                 reference=args.reference,
                 progress=bar,
+                # shown only beside other variants, or written with --out
+                cooling=len(variants) > 1 or bool(args.out),
             )
             bar.close()
             replays.append(replayed)
@@ -689,11 +697,10 @@ def _write(
 
 
 def _page_name(config: SiteConfig, start: float, end: float) -> str:
-    """The file name of the report page of ``start``-``end``, as
-    :func:`~ventsup.drivers.reporting.write_report` names it."""
-    from ventsup.drivers.reporting import period_between
+    """The file name of the report page of ``start``-``end``."""
+    from ventsup.drivers.reporting import page_name, period_between
 
-    return f"{config.slug}-{period_between(config.site.time_zone, start, end).label}.html"
+    return page_name(config, period_between(config.site.time_zone, start, end))
 
 
 def _report(
