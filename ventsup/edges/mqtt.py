@@ -537,7 +537,9 @@ class MqttClient:
                 with self._cond:
                     self._subscribe_mids[mid] = self._subscriptions
         if self.settings.status_topic is not None:
-            client.publish(self.settings.status_topic, ONLINE, qos=1, retain=True)
+            # Tracked like any QoS 1 publish: until the broker acknowledges it, a
+            # broken connection makes paho send it again after the reconnect.
+            self.publish(self.settings.status_topic, ONLINE, qos=1, retain=True)
         self._put(Connected(bool(flags.session_present), now))
         if not self._first_connack.is_set():
             self._first_reason = reason
