@@ -468,3 +468,41 @@ def run_steps(
             row[8] = wind
             row[9] = heating
             row[10] = co2
+
+
+# ------------------------------------------------------------------ reporting
+
+
+@numba.njit(cache=True)
+def report_on_change(
+    values: FloatArray,
+    sent: npt.NDArray[np.bool_],
+    t: FloatArray,
+    repeat: float,
+    last_t: FloatArray,
+    last_value: FloatArray,
+) -> None:
+    """Keep, in ``sent``, only the reports a gateway reporting on change makes.
+
+    ``values[i, j]`` is what point ``j`` would publish at step ``i`` (time
+    ``t[i]``) where ``sent[i, j]``; the rest publish nothing. A value is
+    published when it differs from the last one the point published, or when
+    that one is ``repeat`` [s] old or older, or when the point has published
+    nothing yet; ``sent`` is cleared where it is not. ``last_t`` and
+    ``last_value`` are each point's last report before ``t[0]`` (NaN: none)
+    and are left as they were after the last step.
+    """
+    m, count = values.shape
+    for j in range(count):
+        when = last_t[j]
+        value = last_value[j]
+        for i in range(m):
+            if not sent[i, j]:
+                continue
+            if when == when and values[i, j] == value and t[i] - when < repeat:
+                sent[i, j] = False
+            else:
+                when = t[i]
+                value = values[i, j]
+        last_t[j] = when
+        last_value[j] = value

@@ -67,6 +67,7 @@ import numpy as np
 import numpy.typing as npt
 
 from simulator import _kernel
+from simulator.building import Reporting
 from ventsup.config.model import PointKind, SiteConfig
 from ventsup.core.decide import decide, initial_state
 from ventsup.core.horizon import (
@@ -106,6 +107,19 @@ _NONE = object()  # nothing held / no value (faulted points)
 TEMPERATURE, CO2, HEATING, POSITION = 0, 1, 2, 3
 
 
+def round_to(values: FloatArray, resolution: FloatArray | float) -> FloatArray:
+    """``values`` rounded to the nearest multiple of ``resolution`` (0: as they are).
+
+    Half-way values go to the even multiple (numpy's rounding); NaN stays NaN.
+    The multiple is rounded again to 9 decimals so that it reads as written
+    (27.2, not 27.200000000000003) in a payload.
+    """
+    step = np.asarray(resolution, dtype=np.float64)
+    safe = np.where(step > 0.0, step, 1.0)
+    rounded = np.round(np.round(values / safe) * safe, 9)
+    return np.asarray(np.where(step > 0.0, rounded, values))
+
+
 @dataclass
 class _Dynamic:
     """A point published from the simulated state each step (a column of the spans)."""
@@ -131,7 +145,14 @@ class Points:
     per-step ones published span by span from the simulated state.
 
     A span holds, for steps ``k0`` to ``k1`` and each per-step point (a column),
-    the value published (NaN: none) and the step of the sample held (-1: none).
+    the value published (NaN: none) and the step of the sample held (-1: none);
+    :attr:`rows` keeps what each per-step point published over the whole run.
+
+    Every point is published as the gateways of ``reporting`` would: a
+    measured value rounded to the resolution of its kind, and with
+    ``on_change`` only when it changed or is due again (see
+    :func:`simulator._kernel.report_on_change`). The outdoor and scripted
+    points come already published so (:func:`publish_series`).
     """
 
     def __init__(
@@ -142,8 +163,11 @@ class Points:
         static_published: dict[str, FloatArray],
         dynamic: Sequence[tuple[str, int, Any, float]],
         faults: Any,
+        reporting: Reporting | None = None,
     ) -> None:
         self.config = config
+        reporting = Reporting() if reporting is None else reporting
+        self.repeat = reporting.repeat if reporting.on_change else None
         self.t = t
         self.t_list: list[float] = t.tolist()
         n = t.size
@@ -198,8 +222,15 @@ class Points:
         self.lows = np.array([-np.inf if p.kind == HEATING else p.low for p in self.dynamic])
         self.highs = np.array([np.inf if p.kind == HEATING else p.high for p in self.dynamic])
         self.faulted = [j for j, p in enumerate(self.dynamic) if p.fault is not None]
-        self.faulted_rows = {self.dynamic[j].name: np.full(n, np.nan) for j in self.faulted}
         count = len(self.dynamic)
+        # A heating status is a binary point: never rounded.
+        self.resolution = np.array(
+            [
+                0.0 if p.binary else reporting.resolution.get(config.points[p.name].kind, 0.0)
+                for p in self.dynamic
+            ]
+        )
+        self.rows = np.full((n, count), np.nan)
         # What is held before the current span: the step published (-1: never), the value.
         self.last = np.full(count, -1, dtype=np.int64)
         self.last_value = np.full(count, np.nan)
@@ -245,11 +276,15 @@ class Points:
         if self.position.size:
             values[0, self.position] = position[self.position_openings]
             values[1:, self.position] = position_rows[k0:k1, self.position_openings]
+        if self.resolution.any():
+            values = round_to(values, self.resolution)
         sent = (values >= self.lows) & (values <= self.highs)
         self.objects, self.carry = {}, {}
         for j in self.faulted:
             point = self.dynamic[j]
             sent[:, j], self.objects[j], self.carry[j] = self._faulted(point, k0, values[:, j])
+        if self.repeat is not None:
+            self._report_on_change(values, sent, k0)
         steps = np.arange(k0, k1 + 1, dtype=np.int64)[:, None]
         if sent.all():
             self.published = values
@@ -259,9 +294,21 @@ class Points:
             held_at = np.where(sent, steps, self.last)
             np.maximum.accumulate(held_at, axis=0, out=held_at)
             self.held_at = held_at
-        for j in self.faulted:
-            self.faulted_rows[self.dynamic[j].name][k0 : k1 + 1] = self.published[:, j]
+        self.rows[k0 : k1 + 1] = self.published
         self.k0 = k0
+
+    def _report_on_change(self, values: FloatArray, sent: BoolArray, k0: int) -> None:
+        """Clear ``sent`` where a gateway reporting on change stays quiet (in place)."""
+        assert self.repeat is not None
+        last = self.last
+        last_t = np.where(last >= 0, self.t[np.maximum(last, 0)], np.nan)
+        last_value = self.last_value.copy()  # the span may be cut: keep() carries it
+        t = self.t[k0 : k0 + values.shape[0]]
+        _kernel.report_on_change(values, sent, t, self.repeat, last_t, last_value)
+        for j in self.faulted:
+            objects = self.objects[j]
+            for i in np.flatnonzero(~sent[:, j]).tolist():
+                objects[i] = None
 
     def _faulted(
         self, point: _Dynamic, k0: int, values: FloatArray

@@ -45,6 +45,7 @@ EXTRA_QUANTITIES: dict[str, tuple[str, dict[str, float]]] = {
     ),
     "gradient": ("a vertical temperature gradient such as '1 K/m'", {"k/m": 1.0}),
     "number": ("a number", {}),
+    "relative_humidity": ("a relative humidity such as '1 %'", {"%": 1.0, "%rh": 1.0}),
 }
 
 

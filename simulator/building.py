@@ -76,7 +76,7 @@ from simulator._yaml import FileReader
 from simulator.errors import BuildingError
 from simulator.solar import plane_irradiance
 from ventsup.config.errors import ConfigProblem
-from ventsup.config.model import SiteConfig
+from ventsup.config.model import PointKind, SiteConfig
 from ventsup.core.physics import Terrain
 
 __all__ = [
@@ -95,6 +95,7 @@ __all__ = [
     "OpeningDetail",
     "People",
     "RCParameters",
+    "Reporting",
     "Schedule",
     "Stratification",
     "Surface",
@@ -826,13 +827,44 @@ class ZoneModel:
 
 
 @dataclass(frozen=True)
+class Reporting:
+    """How the site's gateways publish the points the simulator plays.
+
+    ``resolution`` [SI, by point kind]: a reading is rounded to a multiple of
+    it before it is published (a kind not listed: not rounded). With
+    ``on_change`` a point is published when its published value would differ
+    from the last one it published, and otherwise once ``repeat`` [s] has
+    passed since then (report by exception with a periodic report, common
+    practice for MQTT gateways and BACnet change-of-value subscriptions);
+    without it, every step. The default publishes every step, unrounded.
+    """
+
+    on_change: bool = False
+    repeat: float = math.inf
+    resolution: Mapping[PointKind, float] = field(default_factory=dict)
+
+
+#: The point kinds a resolution may be given for, and how it is written.
+_RESOLUTION_QUANTITY: dict[PointKind, str] = {
+    PointKind.TEMPERATURE: "temperature_delta",
+    PointKind.DEW_POINT: "temperature_delta",
+    PointKind.HUMIDITY: "relative_humidity",
+    PointKind.WIND_SPEED: "speed",
+    PointKind.WIND_DIRECTION: "angle",
+    PointKind.CO2: "concentration",
+    PointKind.POSITION: "fraction",
+}
+
+
+@dataclass(frozen=True)
 class Building:
     """The simulator's description of a building's thermal side, zone by zone.
 
     ``terrain`` around the site (wind profile); ``station_height`` [m] of the
     site's rooftop anemometer (the wind speed point reads the wind there);
     ``ground_albedo`` [1]; ``co2_outdoor`` [ppm]; ``ground_temperature`` [°C]
-    under ground floors (None: the mean outdoor temperature of the run).
+    under ground floors (None: the mean outdoor temperature of the run);
+    ``reporting``: how the points are published (:class:`Reporting`).
     """
 
     name: str
@@ -843,6 +875,7 @@ class Building:
     co2_outdoor: float = 420.0
     ground_temperature: float | None = None
     schedules: Mapping[str, Schedule] = field(default_factory=dict)
+    reporting: Reporting = field(default_factory=Reporting)
 
 
 def solar_gains(
@@ -895,7 +928,7 @@ def _problem(file: str, message: str) -> ConfigProblem:
     return ConfigProblem(file, None, "", message)
 
 
-_TOP = ("building", "schedules", "zones")
+_TOP = ("building", "schedules", "zones", "reporting")
 _BUILDING_KEYS = (
     "name",
     "terrain",
@@ -931,7 +964,9 @@ def parse_building(text: str, file: str, site_config: SiteConfig) -> Building:
         reader.fail(
             BuildingError, "the file is empty, expected the keys building, schedules, zones"
         )
-    top = reader.mapping((), reader.data, required=("building", "zones"), optional=("schedules",))
+    top = reader.mapping(
+        (), reader.data, required=("building", "zones"), optional=("schedules", "reporting")
+    )
     if top is None:
         reader.finish(BuildingError)
         raise AssertionError("unreachable")
@@ -988,6 +1023,7 @@ def parse_building(text: str, file: str, site_config: SiteConfig) -> Building:
     for zone_name in site_config.zones:
         if "zones" in top and zone_name not in raw_zones:
             reader.report(("zones",), f"missing zone {zone_name!r} of the site config")
+    reporting = _reporting(reader, top.get("reporting"), site_config)
     reader.finish(BuildingError)
     return Building(
         name=name,
@@ -998,7 +1034,61 @@ def parse_building(text: str, file: str, site_config: SiteConfig) -> Building:
         co2_outdoor=co2,
         ground_temperature=ground,
         schedules=MappingProxyType(schedules),
+        reporting=reporting,
     )
+
+
+def _reporting(reader: FileReader, raw: object, site_config: SiteConfig) -> Reporting:
+    """The ``reporting`` section (absent: every step, unrounded)."""
+    if raw is None:
+        return Reporting()
+    path: tuple[Any, ...] = ("reporting",)
+    spec = reader.mapping(path, raw, optional=("on_change", "repeat", "resolution"))
+    if spec is None:
+        return Reporting()
+    on_change = spec.get("on_change", False)
+    if not isinstance(on_change, bool):
+        reader.got((*path, "on_change"), on_change, "true or false")
+        on_change = False
+    repeat = math.inf
+    if on_change and "repeat" not in spec:
+        reader.report(
+            path,
+            "on_change needs repeat (how often an unchanged value is published again, "
+            "such as '4 min'), or the controller would see a steady value go stale",
+        )
+    elif "repeat" in spec:
+        value = reader.quantity((*path, "repeat"), spec["repeat"], "duration", above=0.0)
+        if value is not None:
+            repeat = value
+            # The controller holds a sample while t - t_sample <= stale_after; a steady
+            # value goes out again at the first step at least `repeat` after the last
+            # report, so every decision before it sees it younger than `repeat`.
+            tightest = min(site_config.points.items(), key=lambda item: item[1].stale_after)
+            if repeat > tightest[1].stale_after:
+                reader.got(
+                    (*path, "repeat"),
+                    spec["repeat"],
+                    f"at most {tightest[1].stale_after:g} s: point {tightest[0]!r} goes stale "
+                    "after that long without a new value",
+                )
+    resolution: dict[PointKind, float] = {}
+    raw_resolution = reader.mapping(
+        (*path, "resolution"),
+        spec.get("resolution", {}),
+        optional=tuple(kind.value for kind in _RESOLUTION_QUANTITY),
+    )
+    kinds = {kind.value: kind for kind in _RESOLUTION_QUANTITY}
+    for key, value in (raw_resolution or {}).items():
+        kind = kinds.get(key)
+        if kind is None:  # reported as an unknown key
+            continue
+        number = reader.quantity(
+            (*path, "resolution", key), value, _RESOLUTION_QUANTITY[kind], above=0.0
+        )
+        if number is not None:
+            resolution[kind] = number
+    return Reporting(on_change, repeat, MappingProxyType(resolution))
 
 
 def _schedule(reader: FileReader, path: tuple[Any, ...], name: str, raw: object) -> Schedule | None:

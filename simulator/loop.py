@@ -4,7 +4,10 @@ Each step of ``step`` seconds, at time t:
 
 1. the simulator publishes a :class:`~ventsup.core.inputs.Sample` for every
    point of the site config it can source (in SI, with the scenario's faults;
-   an implausible value is dropped as the daemon's decoder would drop it);
+   an implausible value is dropped as the daemon's decoder would drop it), as
+   the building's gateways report (:class:`~simulator.building.Reporting`:
+   every step, or rounded to a resolution and only on change and when due
+   again);
 2. the samples are held (:class:`~ventsup.core.inputs.Held`) and each zone is
    decided by the controller: by default :func:`ventsup.core.decide.decide`
    on :func:`ventsup.core.inputs.zone_inputs`, exactly as the daemon and the
@@ -743,10 +746,15 @@ class _Plan:
         self.unsourced = tuple(sorted(set(config.points) - sourced))
 
     def _publish_static(self, name: str, values: Any) -> FloatArray:
-        """The value published at each step (NaN: nothing), faults and plausibility applied."""
+        """The value published at each step (NaN: nothing): rounded to the reporting
+        resolution, faults and plausibility applied, reported on change if so set."""
         point = self.config.points[name]
         binary = point.kind is PointKind.BINARY
+        reporting = self.building.reporting
         published = np.asarray(values, dtype=np.float64).copy()
+        resolution = 0.0 if binary else reporting.resolution.get(point.kind, 0.0)
+        if resolution > 0.0:
+            published = _steps.round_to(published, resolution)
         fault = self.timeline.sensor_faults.get(name)
         if fault is not None:
             codes, fault_values = fault
@@ -770,6 +778,13 @@ class _Plan:
         if not binary:
             low, high = point.plausible_range
             published[(published < low) | (published > high)] = np.nan
+        if reporting.on_change:
+            sent = ~np.isnan(published)[:, None]
+            nothing = np.full(1, np.nan)
+            _kernel.report_on_change(
+                published[:, None], sent, self.t, reporting.repeat, nothing, nothing.copy()
+            )
+            published[~sent[:, 0]] = np.nan
         return published
 
     # ------------------------------------------------------------------ loop
@@ -811,6 +826,7 @@ class _Plan:
                 *((name, _steps.POSITION, oi, 0.0) for name, oi in self.position_points),
             ],
             self.timeline.sensor_faults,
+            self.building.reporting,
         )
         skip = type(controller) is CoreController and controller.skip_repeats
         core_config = controller.config if skip else None  # type: ignore[attr-defined]
@@ -841,10 +857,9 @@ class _Plan:
             loop.outcomes,
             loop.target_rows,
             loop.position_rows,
-            points.faulted_rows,
+            {name: points.rows[:, j] for name, j in points.column.items()},
             loop.changes,
             opening_zone,
-            initial_temperature,
             loop.reasons,
         )
 
@@ -944,10 +959,9 @@ class _Plan:
         outcomes: npt.NDArray[np.int8],
         targets: FloatArray,
         positions: FloatArray,
-        faulted_rows: dict[str, FloatArray],
+        dynamic_rows: dict[str, FloatArray],
         changes: list[_steps.Change],
         opening_zone: list[int],
-        initial_temperature: float,
         reasons: list[tuple[float, str, str]],
     ) -> Result:
         times = self.times
@@ -985,36 +999,8 @@ class _Plan:
                     data[f"position.{name}"] = positions[:, oi].copy()
                     data[f"target.{name}"] = targets[:, oi].copy()
             frames[zone.name] = pd.DataFrame(data, index=times)
-        sensor_data: dict[str, FloatArray] = dict(self.static_published)
-
-        # What the per-step points published: the state at the start of each step.
-        def before(values: FloatArray, first: float) -> FloatArray:
-            return np.concatenate(([first], values[:-1]))
-
-        for name, zi, offset in self.temperature_points:
-            frame = frames[self.zones[zi].name]
-            sensor_data[name] = before(
-                frame["temp_air_end"].to_numpy() + frame["gradient"].to_numpy() * offset,
-                initial_temperature,
-            )
-        for name, zi in self.co2_points:
-            sensor_data[name] = before(
-                frames[self.zones[zi].name]["co2"].to_numpy(), self.building.co2_outdoor
-            )
-        for name, zis in self.heating_points:
-            heat = np.zeros(n, dtype=bool)
-            for zi in zis:
-                heat |= frames[self.zones[zi].name]["heating"].to_numpy() > 0.0
-            sensor_data[name] = before(heat.astype(np.float64), 0.0)
-        for name, oi in self.position_points:
-            sensor_data[name] = before(positions[:, oi], 0.0)
-        for name in list(sensor_data):
-            if name in self.dynamic_names:
-                low, high = self.config.points[name].plausible_range
-                values = sensor_data[name]
-                sensor_data[name] = np.where((values < low) | (values > high), np.nan, values)
-        for name, recorded in faulted_rows.items():
-            sensor_data[name] = np.asarray(recorded)
+        # What the points published, as the run published them (NaN: nothing).
+        sensor_data: dict[str, FloatArray] = {**self.static_published, **dynamic_rows}
         published = {
             name: np.asarray(sensor_data[name], dtype=np.float64)
             for name in self.config.points

@@ -36,7 +36,7 @@ from simulator.building import (
 )
 from simulator.errors import BuildingError
 from simulator.solar import solar_position
-from ventsup.config.model import SiteConfig
+from ventsup.config.model import PointKind, SiteConfig
 
 from .conftest import DEMO_BUILDING
 
@@ -436,6 +436,17 @@ def test_demo_building_loads(building: Building, site: SiteConfig) -> None:
     assert commons.mass_class is MassClass.HEAVY
     assert commons.openings["high_north"].fire_system_position == 1.0
     assert building.station_height == 18.0
+    reporting = building.reporting
+    assert (reporting.on_change, reporting.repeat) == (True, 240.0)
+    assert reporting.resolution == {
+        PointKind.TEMPERATURE: 0.1,
+        PointKind.DEW_POINT: 0.1,
+        PointKind.HUMIDITY: 1.0,  # % RH, the SI unit of a humidity point
+        PointKind.WIND_SPEED: 0.1,
+        PointKind.WIND_DIRECTION: 1.0,
+        PointKind.CO2: 10.0,
+        PointKind.POSITION: 0.01,
+    }
 
 
 def parse_with(site: SiteConfig, edit: tuple[str, str]) -> str:
@@ -480,6 +491,28 @@ def parse_with(site: SiteConfig, edit: tuple[str, str]) -> str:
         (
             ("g_value: 0.42", "g_value: 1.42"),
             "zones.commons.glazing[0].g_value: got 1.42, expected a fraction from 0 to 1",
+        ),
+        (
+            ("repeat: 4 min", "repeat: 6 min"),
+            "reporting.repeat: got '6 min', expected at most 300 s: point 'wind_speed' goes "
+            "stale after that long without a new value",
+        ),
+        (
+            ("  repeat: 4 min\n", ""),
+            "reporting: on_change needs repeat (how often an unchanged value is published "
+            "again, such as '4 min')",
+        ),
+        (
+            ("co2: 10 ppm,", "co2: 10 ppm, binary: 1,"),
+            "reporting.resolution.binary: unknown key 'binary'",
+        ),
+        (
+            ("humidity: 1 %", "humidity: 1 K"),
+            "reporting.resolution.humidity: got '1 K', expected a relative humidity such as '1 %'",
+        ),
+        (
+            ("on_change: true", "on_change: sometimes"),
+            "reporting.on_change: got 'sometimes', expected true or false",
         ),
     ],
 )
