@@ -4,6 +4,12 @@ Run from the repository root (needs Debian's mosquitto, as the broker tests)::
 
     .venv/bin/python benchmarks/bridge_week.py              # a week at one-minute steps
     .venv/bin/python benchmarks/bridge_week.py --days 1
+    .venv/bin/python benchmarks/bridge_week.py --every-step   # ideal gateways
+
+The demo building's gateways report on change (``reporting`` in
+config/demo-building.yaml: about 6.7 messages a step on this week); with
+``--every-step`` every point is published every step, unrounded (22 messages
+a step), as before that section existed.
 
 It starts a mosquitto on a free loopback port and ``ventsup run --sim-clock``
 as its own process (with a fresh ledger in a temporary folder), then runs the
@@ -35,12 +41,13 @@ import subprocess
 import sys
 import tempfile
 import time
+from dataclasses import replace
 from pathlib import Path
 
 import pandas as pd
 
 from simulator.bridge import CommandedCore, MqttController, open_hours
-from simulator.building import load_building
+from simulator.building import Reporting, load_building
 from simulator.loop import run
 from simulator.weather import synthetic
 from ventsup.config import load_config
@@ -90,6 +97,11 @@ def main() -> int:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("--days", type=float, default=7.0)
     parser.add_argument("--step", type=float, default=60.0)
+    parser.add_argument(
+        "--every-step",
+        action="store_true",
+        help="publish every point every step, unrounded (ignore the building's reporting)",
+    )
     args = parser.parse_args()
     broker_binary = shutil.which("mosquitto") or "/usr/sbin/mosquitto"
     if not os.access(broker_binary, os.X_OK):
@@ -111,11 +123,21 @@ def main() -> int:
         site_path.write_text(_site_text(port, tmp / "ledger.db"), encoding="utf-8")
         site = load_config(site_path)
         building = load_building(ROOT / "config" / "demo-building.yaml", site)
+        if args.every_step:
+            building = replace(building, reporting=Reporting())
         weather = synthetic(
             41.2, -88.1, TZ, start - pd.Timedelta(days=1), end + pd.Timedelta(days=1), seed=0
         )
         steps = int((end - start) / pd.Timedelta(seconds=args.step))
-        print(f"demo building, {args.days:g} days at {args.step:g} s steps ({steps} steps)")
+        gateways = (
+            "every point every step"
+            if not building.reporting.on_change
+            else f"points reported on change, repeated every {building.reporting.repeat:g} s"
+        )
+        print(
+            f"demo building, {args.days:g} days at {args.step:g} s steps ({steps} steps); "
+            f"{gateways}; MQTT {site.mqtt.protocol}"
+        )
 
         began = time.perf_counter()
         run(site, building, weather, start=start, end=end, step=args.step)
