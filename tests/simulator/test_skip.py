@@ -30,8 +30,9 @@ from simulator.scenario import (
     SensorFault,
     SmokeDrill,
     Timing,
+    parse_scenario,
 )
-from simulator.weather import synthetic
+from simulator.weather import Weather, synthetic
 from ventsup.config.model import SiteConfig
 from ventsup.core.state import ZoneState
 
@@ -114,14 +115,12 @@ SPANS = [
 ]
 
 
-@pytest.mark.parametrize("seed", range(len(SPANS)))
-def test_skipping_repeats_changes_nothing(site: SiteConfig, building: Building, seed: int) -> None:
-    text, hours = SPANS[seed]
-    start = pd.Timestamp(text, tz=site.site.time_zone)
-    scenario = _scenario(site, 100 + seed, hours)
-    every, every_trace, every_calls = _run(site, building, scenario, start, hours, seed, False)
-    skipped, skipped_trace, skipped_calls = _run(site, building, scenario, start, hours, seed, True)
-
+def _assert_same(
+    every: Result,
+    every_trace: list[tuple[int, int, ZoneState]],
+    skipped: Result,
+    skipped_trace: list[tuple[int, int, ZoneState]],
+) -> None:
     # Every step's record: physics, outcome, targets, positions, what each point published.
     for zone, frame in every.zones.items():
         pd.testing.assert_frame_equal(skipped.zones[zone], frame, check_exact=True)
@@ -136,6 +135,79 @@ def test_skipping_repeats_changes_nothing(site: SiteConfig, building: Building, 
     # And the end state of each zone is among them.
     last = len(every.outdoor) - 1
     assert {zone for k, zone, _ in skipped_trace if k == last} == set(range(len(every.zones)))
+
+
+@pytest.mark.parametrize("seed", range(len(SPANS)))
+def test_skipping_repeats_changes_nothing(site: SiteConfig, building: Building, seed: int) -> None:
+    text, hours = SPANS[seed]
+    start = pd.Timestamp(text, tz=site.site.time_zone)
+    scenario = _scenario(site, 100 + seed, hours)
+    every, every_trace, every_calls = _run(site, building, scenario, start, hours, seed, False)
+    skipped, skipped_trace, skipped_calls = _run(site, building, scenario, start, hours, seed, True)
+    _assert_same(every, every_trace, skipped, skipped_trace)
     # The run without skipping asked the core every step; the other far less often.
     assert every_calls == len(every.zones) * len(every.outdoor)
     assert skipped_calls < every_calls / 3
+
+
+def test_a_zone_that_starts_heating_cuts_the_look_ahead_of_its_neighbour(
+    site: SiteConfig, building: Building
+) -> None:
+    # The classroom and the studio share one heating status point (vav_heating).
+    # A cool, sunny April afternoon (14 °C): the studio is in free cooling. At
+    # 13:00 the classroom's sensor sticks at 30 °C, so the classroom opens wide,
+    # cools below its set point and heats; the shared point turns true and the
+    # studio, which had checked its inputs hours ahead under the old physics,
+    # must look again (simulator/_steps.py, Loop: the dependents' cut).
+    index = pd.date_range("2024-04-16 06:00", periods=16, freq="h", tz=site.site.time_zone)
+    weather = Weather(
+        pd.DataFrame(
+            {
+                "temp_outdoor": 14.0,
+                "relative_humidity": 50.0,
+                "wind_speed": 2.0,
+                "wind_direction": 270.0,
+                "rain": False,
+                "ghi": 500.0,
+                "dni": 500.0,
+                "dhi": 100.0,
+            },
+            index=index,
+        ),
+        source="a cool sunny afternoon",
+    )
+    scenario = parse_scenario(
+        """
+        events:
+          - sensor: {point: classroom_temp, fault: stick, value: 30 C, at: "2024-04-16 13:00", duration: 3 h}
+        """,
+        "test.yaml",
+        site,
+    )
+    runs = []
+    for skip in (False, True):
+        plan = _plan(
+            site,
+            building,
+            weather,
+            scenario,
+            pd.Timestamp("2024-04-16 08:00", tz=site.site.time_zone),
+            pd.Timestamp("2024-04-16 19:00", tz=site.site.time_zone),
+            STEP,
+        )
+        trace: list[tuple[int, int, ZoneState]] = []
+        result = plan.simulate(
+            CoreController(site, skip_repeats=skip),
+            23.5,
+            None,
+            lambda k, zone, state, trace=trace: trace.append((k, zone, state)),
+        )
+        runs.append((result, trace))
+    (every, every_trace), (skipped, skipped_trace) = runs
+    # The run does what the test is about: the studio open while the classroom heats.
+    studio, classroom = every.zones["studio_west"], every.zones["classroom_east"]
+    after = classroom.index >= pd.Timestamp("2024-04-16 13:00", tz=site.site.time_zone)
+    assert (classroom["heating"][after] > 0).any()
+    assert not (classroom["heating"][~after] > 0).any()
+    assert studio["windows_open"].any()
+    _assert_same(every, every_trace, skipped, skipped_trace)
