@@ -5,6 +5,8 @@ Run from the repository root (needs Debian's mosquitto, as the broker tests)::
     .venv/bin/python benchmarks/bridge_week.py              # a week at one-minute steps
     .venv/bin/python benchmarks/bridge_week.py --days 1
     .venv/bin/python benchmarks/bridge_week.py --every-step   # ideal gateways
+    .venv/bin/python benchmarks/bridge_week.py --protocol 3.1.1
+    .venv/bin/python benchmarks/bridge_week.py --amqtt --days 1  # pure-Python broker
 
 The demo building's gateways report on change (``reporting`` in
 config/demo-building.yaml: about 6.7 messages a step on this week); with
@@ -84,13 +86,36 @@ def _cpu_seconds(pid: int) -> float:
     return (int(fields[11]) + int(fields[12])) / os.sysconf("SC_CLK_TCK")
 
 
-def _site_text(port: int, ledger: Path) -> str:
+def _site_text(port: int, ledger: Path, protocol: str) -> str:
     text = (ROOT / "config" / "demo-site.yaml").read_text(encoding="utf-8")
     text = text.replace("topic: qlc/", f"topic: {PREFIX}/qlc/")
     return text + (
-        f"\nprefix: {PREFIX}/ctl\nmqtt: {{host: 127.0.0.1, port: {port}}}\n"
+        f"\nprefix: {PREFIX}/ctl\nmqtt: {{host: 127.0.0.1, port: {port}, protocol: {protocol}}}\n"
         f"controller: {{tick: 60 s, ledger: {ledger}}}\n"
     )
+
+
+def _broker(tmp: Path, port: int, amqtt: bool) -> list[str]:
+    """The broker's command line, its configuration written to ``tmp``."""
+    if amqtt:  # pure Python, MQTT 3.1.1 only (see ../shared/LIBRARY-NOTES.md)
+        binary = Path(sys.executable).parent / "amqtt"
+        if not binary.exists():
+            raise SystemExit("amqtt is not installed: .venv/bin/pip install amqtt")
+        config = f"listeners:\n  default:\n    type: tcp\n    bind: 127.0.0.1:{port}\n"
+        (tmp / "amqtt.yaml").write_text(config, encoding="utf-8")
+        return [str(binary), "-c", str(tmp / "amqtt.yaml")]
+    binary = shutil.which("mosquitto") or "/usr/sbin/mosquitto"
+    if not os.access(binary, os.X_OK):
+        raise SystemExit("mosquitto is not installed: run `make broker`")
+    lines = [
+        f"listener {port} 127.0.0.1",
+        "allow_anonymous true",
+        "persistence false",
+        "set_tcp_nodelay true",
+        *(["user root"] if os.geteuid() == 0 else []),
+    ]
+    (tmp / "mosquitto.conf").write_text("\n".join(lines) + "\n", encoding="utf-8")
+    return [binary, "-c", str(tmp / "mosquitto.conf")]
 
 
 def main() -> int:
@@ -102,25 +127,22 @@ def main() -> int:
         action="store_true",
         help="publish every point every step, unrounded (ignore the building's reporting)",
     )
+    parser.add_argument(
+        "--amqtt",
+        action="store_true",
+        help="the pure-Python broker amqtt (pip install amqtt) with MQTT 3.1.1, not mosquitto",
+    )
+    parser.add_argument("--protocol", choices=("5", "3.1.1"), default=None)
     args = parser.parse_args()
-    broker_binary = shutil.which("mosquitto") or "/usr/sbin/mosquitto"
-    if not os.access(broker_binary, os.X_OK):
-        raise SystemExit("mosquitto is not installed: run `make broker`")
+    protocol = args.protocol or ("3.1.1" if args.amqtt else "5")
     start = pd.Timestamp("2024-07-01", tz=TZ)
     end = start + pd.Timedelta(days=args.days)
     with tempfile.TemporaryDirectory() as folder:
         tmp = Path(folder)
         port = _free_port()
-        lines = [
-            f"listener {port} 127.0.0.1",
-            "allow_anonymous true",
-            "persistence false",
-            "set_tcp_nodelay true",
-            *(["user root"] if os.geteuid() == 0 else []),
-        ]
-        (tmp / "mosquitto.conf").write_text("\n".join(lines) + "\n", encoding="utf-8")
+        broker_command = _broker(tmp, port, args.amqtt)
         site_path = tmp / "site.yaml"
-        site_path.write_text(_site_text(port, tmp / "ledger.db"), encoding="utf-8")
+        site_path.write_text(_site_text(port, tmp / "ledger.db", protocol), encoding="utf-8")
         site = load_config(site_path)
         building = load_building(ROOT / "config" / "demo-building.yaml", site)
         if args.every_step:
@@ -136,7 +158,7 @@ def main() -> int:
         )
         print(
             f"demo building, {args.days:g} days at {args.step:g} s steps ({steps} steps); "
-            f"{gateways}; MQTT {site.mqtt.protocol}"
+            f"{gateways}; MQTT {site.mqtt.protocol}; broker {Path(broker_command[0]).name}"
         )
 
         began = time.perf_counter()
@@ -144,7 +166,7 @@ def main() -> int:
         in_process = time.perf_counter() - began
 
         broker = subprocess.Popen(
-            [broker_binary, "-c", str(tmp / "mosquitto.conf")],
+            broker_command,
             stdout=subprocess.DEVNULL,
             stderr=subprocess.DEVNULL,
         )
