@@ -152,7 +152,8 @@ class Points:
     measured value rounded to the resolution of its kind, and with
     ``on_change`` only when it changed or is due again (see
     :func:`simulator._kernel.report_on_change`). The outdoor and scripted
-    points come already published so (:func:`publish_series`).
+    points come already published so, by the plan of the run
+    (``simulator.loop._Plan._publish_static``).
     """
 
     def __init__(
