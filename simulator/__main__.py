@@ -16,8 +16,12 @@ steps. Prints the per-zone summary and the monthly free-cooling hours (or the
 what-if table); progress goes to stderr. With ``--what-if`` and ``--out DIR``
 it also writes ``what-if.csv`` (the table: one row per value and zone, SI)
 and ``what-if.svg`` (:func:`what_if_svg`: free-cooling hours, hours above the
-comfort limit and the peak temperature against the value, a line per zone). Exit status 2 for a problem with an
-input file, with every problem listed as ``file:line key: what was expected``.
+comfort limit and the peak temperature against the value, a line per zone,
+temperatures and the rule's values in the site's display units). A rule's
+values may carry their unit as in the site file
+(``free_cooling.open_above=72F,74F,76F``); a plain number is SI. Exit status
+2 for a problem with an input file, with every problem listed as
+``file:line key: what was expected``.
 
 With ``--mqtt [HOST:PORT]`` the decisions come from a running ``ventsup run
 SITE --sim-clock`` over the broker (default: the site's ``mqtt`` section) in
@@ -29,6 +33,7 @@ from __future__ import annotations
 
 import argparse
 import math
+import re
 import sys
 from collections.abc import Sequence
 from pathlib import Path
@@ -38,12 +43,13 @@ import pandas as pd
 from simulator.bridge import run_mqtt
 from simulator.building import load_building
 from simulator.errors import ControllerError, SimulatorError
-from simulator.loop import Result, run, what_if
+from simulator.loop import Result, rule_quantity, run, what_if
 from simulator.scenario import load_scenario
 from simulator.weather import CLIMATES, Weather, read_csv, read_epw, synthetic
 from ventsup.config import load_config
 from ventsup.config.errors import VentsupError
 from ventsup.config.model import SiteConfig
+from ventsup.config.units import to_display
 from ventsup.edges.charts import Panel, Series, panels_svg
 
 _CONFIG = Path(__file__).resolve().parent.parent / "config"
@@ -70,7 +76,10 @@ def _parser() -> argparse.ArgumentParser:
     parser.add_argument(
         "--what-if",
         metavar="PARAMETER=V1,V2,...",
-        help="opening_area=0.5,1,2 or a rule path such as free_cooling.open_above=22,23,24",
+        help=(
+            "opening_area=0.5,1,2 or a rule path such as free_cooling.open_above=22,23,24 "
+            "(SI) or =72F,74F,76F"
+        ),
     )
     parser.add_argument(
         "--out",
@@ -177,15 +186,7 @@ def main(argv: Sequence[str] | None = None) -> int:
             _print(site, args, weather, result)
             return 0
         if args.what_if:
-            parameter, _, text = args.what_if.partition("=")
-            try:
-                values = [float(v) for v in text.split(",") if v.strip()]
-            except ValueError:
-                raise SimulatorError(
-                    f"--what-if: got {args.what_if!r}, expected PARAMETER=V1,V2,... with numbers"
-                ) from None
-            if not values:
-                raise SimulatorError(f"--what-if: got {args.what_if!r}, expected some values")
+            parameter, values = _what_if_values(args.what_if)
             if args.out is not None:
                 _make_folder(args.out)  # before the runs, so a bad folder fails at once
             table = what_if(
@@ -202,7 +203,7 @@ def main(argv: Sequence[str] | None = None) -> int:
             print(table.round(2).to_string())
             if args.out is not None:
                 title = f"{site.site.name}: what if {parameter}"
-                for path in write_what_if(table, args.out, title):
+                for path in write_what_if(table, args.out, title, site):
                     print(f"wrote {path}")
             return 0
         result = run(
@@ -225,49 +226,85 @@ def main(argv: Sequence[str] | None = None) -> int:
     return 0
 
 
-#: The what-if quantities charted: column, panel title, scale from zero.
+_WHAT_IF = re.compile(r"^\s*([A-Za-z][\w.]*)\s*=(.*)$")
+_AMOUNT = re.compile(r"^\s*[-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?\s*(\S.*?)?\s*$")
+
+
+def _what_if_values(spec: str) -> tuple[str, list[float | str]]:
+    """``PARAMETER=V1,V2,...``: the parameter, and each value as a number (SI) or,
+    when it carries a unit, as text for the site loader (``"72F"``)."""
+    expected = "expected PARAMETER=V1,V2,... with numbers (a rule's may carry a unit: 72F)"
+    match = _WHAT_IF.match(spec)
+    if match is None:
+        raise SimulatorError(f"--what-if: got {spec!r}, {expected}")
+    parameter, text = match.group(1), match.group(2)
+    values: list[float | str] = []
+    for item in (part.strip() for part in text.split(",")):
+        if not item:
+            continue
+        amount = _AMOUNT.match(item)
+        if amount is None:
+            raise SimulatorError(f"--what-if: {item!r} in {spec!r} is not a number; {expected}")
+        values.append(item if amount.group(1) else float(item))
+    if not values:
+        raise SimulatorError(f"--what-if: got {spec!r}, expected some values")
+    return parameter, values
+
+
+#: The what-if quantities charted: column, panel title, scale from zero, unit quantity.
 WHAT_IF_CHART = (
-    ("free_cooling_hours", "free-cooling hours [h]", True),
-    ("hours_above_comfort", "occupied hours above comfort.high [h]", True),
-    ("peak_temperature", "peak indoor temperature [°C]", False),
+    ("free_cooling_hours", "free-cooling hours [h]", True, None),
+    ("hours_above_comfort", "occupied hours above comfort.high [h]", True, None),
+    ("peak_temperature", "peak indoor temperature", False, "temperature"),
 )
 
 
-def what_if_svg(table: pd.DataFrame, title: str) -> str:
+def what_if_svg(table: pd.DataFrame, title: str, site: SiteConfig | None = None) -> str:
     """The chart of a :func:`~simulator.loop.what_if` table as SVG text.
 
     One panel per quantity of :data:`WHAT_IF_CHART`, one line per zone, against
     the parameter's values in increasing order (a value given twice: its last
-    run); drawn by :func:`ventsup.edges.charts.panels_svg`.
+    run); drawn by :func:`ventsup.edges.charts.panels_svg`. Temperatures and a
+    rule's values are shown in the ``site``'s display units (without a site: SI).
     """
+    system = site.site.units if site is not None else "SI"
     parameter = str(table.index.names[0])
     records = table.reset_index().to_dict(orient="records")
     rows = {(float(r[parameter]), str(r["zone"])): r for r in records}
     values = sorted({value for value, _ in rows})
     zones = list(dict.fromkeys(zone for _, zone in rows))
-    panels = [
-        Panel(
-            name,
-            tuple(
-                Series(
-                    zone,
-                    tuple(
-                        float(rows[(value, zone)][column]) if (value, zone) in rows else math.nan
-                        for value in values
-                    ),
-                )
-                for zone in zones
-            ),
-            from_zero=zero,
+
+    def shown(value: float, quantity: str | None) -> float:
+        return value if quantity is None else to_display(value, quantity, system)[0]
+
+    panels = []
+    for column, name, zero, quantity in WHAT_IF_CHART:
+        if quantity is not None:
+            name = f"{name} [{to_display(0.0, quantity, system)[1]}]"
+        series = tuple(
+            Series(
+                zone,
+                tuple(
+                    shown(float(rows[(value, zone)][column]), quantity)
+                    if (value, zone) in rows
+                    else math.nan
+                    for value in values
+                ),
+            )
+            for zone in zones
         )
-        for column, name, zero in WHAT_IF_CHART
-    ]
-    axis = (
-        "opening_area (factor on every opening's free area)"
-        if parameter == "opening_area"
-        else f"{parameter} (SI)"
-    )
-    return panels_svg(values, [f"{v:g}" for v in values], panels, title=title, x_title=axis)
+        panels.append(Panel(name, series, from_zero=zero))
+    if parameter == "opening_area":
+        axis, quantity = "opening_area (factor on every opening's free area)", None
+    elif site is None:
+        axis, quantity = f"{parameter} (SI)", None
+    else:
+        quantity = rule_quantity(site, parameter)
+        unit = "" if quantity is None else to_display(0.0, quantity, system)[1]
+        axis = f"{parameter} [{unit}]" if unit else parameter
+    x = [shown(value, quantity) for value in values]
+    labels = [f"{round(value, 6):g}" for value in x]
+    return panels_svg(x, labels, panels, title=title, x_title=axis)
 
 
 def _make_folder(folder: Path) -> None:
@@ -277,13 +314,16 @@ def _make_folder(folder: Path) -> None:
         raise SimulatorError(f"--out {folder}: cannot make the folder: {exc.strerror}") from exc
 
 
-def write_what_if(table: pd.DataFrame, folder: Path, title: str) -> list[Path]:
-    """Write ``what-if.csv`` and ``what-if.svg`` of a what-if ``table`` into ``folder``."""
+def write_what_if(
+    table: pd.DataFrame, folder: Path, title: str, site: SiteConfig | None = None
+) -> list[Path]:
+    """Write ``what-if.csv`` (SI) and ``what-if.svg`` (the ``site``'s display units)
+    of a what-if ``table`` into ``folder``."""
     _make_folder(folder)
     csv, svg = folder / "what-if.csv", folder / "what-if.svg"
     try:
         table.reset_index().to_csv(csv, index=False, lineterminator="\n")
-        svg.write_text(what_if_svg(table, title), encoding="utf-8")
+        svg.write_text(what_if_svg(table, title, site), encoding="utf-8")
     except OSError as exc:
         raise SimulatorError(f"--out {folder}: cannot write: {exc.strerror}") from exc
     return [csv, svg]

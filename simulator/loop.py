@@ -67,6 +67,7 @@ from typing import Any, Protocol
 import numpy as np
 import numpy.typing as npt
 import pandas as pd
+from pydantic import BaseModel, ValidationError
 
 from simulator import _kernel, _steps
 from simulator.building import Building, ZoneModel, solar_gains
@@ -75,6 +76,7 @@ from simulator.openings import OpeningModel, ventilation_heat
 from simulator.scenario import Scenario, timeline
 from simulator.solar import solar_position
 from simulator.weather import Weather, to_epoch_seconds
+from ventsup.config._schema import field_quantity
 from ventsup.config.model import Period, PointKind, SiteConfig
 from ventsup.core import physics, psychro
 from ventsup.core.decide import decide
@@ -89,6 +91,8 @@ __all__ = [
     "FixedController",
     "Result",
     "in_periods",
+    "rule_quantity",
+    "rule_value",
     "run",
     "scale_opening_area",
     "set_rule",
@@ -1079,36 +1083,57 @@ def scale_opening_area(config: SiteConfig, factor: float) -> SiteConfig:
     return SiteConfig.model_validate(data)
 
 
-def set_rule(config: SiteConfig, path: str, value: float) -> SiteConfig:
-    """The site with one rule threshold set to ``value`` (SI).
-
-    ``path`` is ``section.field`` for every rule set (``free_cooling.open_above``)
-    or ``ruleset.section.field`` for one (``hall.free_cooling.open_above``).
-    """
+def _rule_field(config: SiteConfig, path: str) -> tuple[list[str], str, str]:
+    """(rule sets, section, field) that a rule ``path`` names, or SimulatorError."""
     parts = path.split(".")
-    data = config.model_dump()
     if len(parts) == 2:
-        rule_sets = list(data["rules"])
-    elif len(parts) == 3 and parts[0] in data["rules"]:
+        rule_sets = list(config.rules)
+    elif len(parts) == 3 and parts[0] in config.rules:
         rule_sets, parts = [parts[0]], parts[1:]
     else:
         raise SimulatorError(
             f"rule path {path!r}: expected 'section.field' or 'ruleset.section.field' "
-            f"(rule sets: {', '.join(data['rules'])})"
+            f"(rule sets: {', '.join(config.rules)})"
         )
     section, name = parts
     for rule_set in rule_sets:
-        rules = data["rules"][rule_set]
-        if (
-            section not in rules
-            or not isinstance(rules[section], dict)
-            or name not in rules[section]
-        ):
+        rules = config.rules[rule_set]
+        part = getattr(rules, section, None) if section in type(rules).model_fields else None
+        if not isinstance(part, BaseModel) or name not in type(part).model_fields:
             raise SimulatorError(
                 f"rule path {path!r}: no {section}.{name} in rule set {rule_set!r}"
             )
-        rules[section][name] = value
-    return SiteConfig.model_validate(data)
+    return rule_sets, section, name
+
+
+def rule_quantity(config: SiteConfig, path: str) -> str | None:
+    """The unit quantity of the rule a ``path`` names (``"temperature"``), if it has one."""
+    rule_sets, section, name = _rule_field(config, path)
+    return field_quantity(type(getattr(config.rules[rule_sets[0]], section)), name)
+
+
+def rule_value(config: SiteConfig, path: str) -> float:
+    """The value [SI] of the rule a ``path`` names (of its first rule set)."""
+    rule_sets, section, name = _rule_field(config, path)
+    return float(getattr(getattr(config.rules[rule_sets[0]], section), name))
+
+
+def set_rule(config: SiteConfig, path: str, value: float | str) -> SiteConfig:
+    """The site with one rule threshold set to ``value``: a number in SI, or text
+    read as the site file reads it (``"75 F"``, ``"20 min"``).
+
+    ``path`` is ``section.field`` for every rule set (``free_cooling.open_above``)
+    or ``ruleset.section.field`` for one (``hall.free_cooling.open_above``).
+    """
+    rule_sets, section, name = _rule_field(config, path)
+    data = config.model_dump()
+    for rule_set in rule_sets:
+        data["rules"][rule_set][section][name] = value
+    try:
+        return SiteConfig.model_validate(data)
+    except ValidationError as exc:
+        why = "; ".join(str(error["msg"]) for error in exc.errors())
+        raise SimulatorError(f"rule path {path!r} = {value!r}: {why}") from None
 
 
 def what_if(
@@ -1116,7 +1141,7 @@ def what_if(
     building: Building,
     weather: Weather,
     parameter: str,
-    values: Iterable[float],
+    values: Iterable[float | str],
     *,
     scenario: Scenario | None = None,
     start: object = None,
@@ -1131,23 +1156,27 @@ def what_if(
     parameter : str
         ``"opening_area"`` (a factor on every opening's free area, for the
         controller and the building alike) or a rule path for
-        :func:`set_rule` (value in SI).
-    values : iterable of float
-        The values to try.
+        :func:`set_rule`.
+    values : iterable of float or str
+        The values to try: numbers (SI), or for a rule text with its unit
+        (``"75 F"``).
 
     Returns
     -------
     DataFrame
-        Indexed by (value, zone), with ``free_cooling_hours``,
+        Indexed by (value [SI], zone), with ``free_cooling_hours``,
         ``hours_above_comfort``, ``peak_temperature`` [°C] and ``cooling_kwh``
         (see :meth:`Result.summary`).
     """
     frames = []
     for value in values:
         if parameter == "opening_area":
+            if isinstance(value, str):
+                raise SimulatorError(f"opening_area: got {value!r}, expected a number (a factor)")
             config = scale_opening_area(site_config, value)
         else:
             config = set_rule(site_config, parameter, value)
+            value = rule_value(config, parameter)
         result = run(config, building, weather, scenario, start, end, step, zones=zones)
         summary = result.summary()[
             ["free_cooling_hours", "hours_above_comfort", "peak_temperature", "cooling_kwh"]

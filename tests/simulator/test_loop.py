@@ -22,6 +22,8 @@ from simulator.loop import (
     FixedController,
     Result,
     in_periods,
+    rule_quantity,
+    rule_value,
     run,
     scale_opening_area,
     set_rule,
@@ -399,6 +401,18 @@ def test_what_if_helpers(site: SiteConfig) -> None:
         set_rule(site, "free_cooling.open_abov", 24.0)
     with pytest.raises(SimulatorError, match=r"expected 'section\.field'"):
         set_rule(site, "open_above", 24.0)
+    # Text is read as the site file reads it: 75 °F is (75 - 32) x 5/9 °C (the
+    # definition of the Fahrenheit scale; the site loader keeps 9 decimals), 2 h
+    # is 7200 s.
+    fahrenheit = set_rule(site, "free_cooling.open_above", "75 F")
+    assert rule_value(fahrenheit, "free_cooling.open_above") == pytest.approx(
+        (75.0 - 32.0) * 5.0 / 9.0, abs=1e-9
+    )
+    assert rule_quantity(site, "free_cooling.open_above") == "temperature"
+    assert rule_value(set_rule(site, "hall.wind.hold", "2 h"), "hall.wind.hold") == 7200.0
+    assert rule_quantity(site, "wind.hold") == "duration"
+    with pytest.raises(SimulatorError, match=r"rule path 'free_cooling.open_above' = '75 mph'"):
+        set_rule(site, "free_cooling.open_above", "75 mph")
 
 
 # ------------------------------------------------------------------------- a real year

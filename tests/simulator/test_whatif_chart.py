@@ -14,11 +14,18 @@ from pathlib import Path
 import pandas as pd
 import pytest
 
-from simulator.__main__ import WHAT_IF_CHART, main, what_if_svg
+from simulator.__main__ import WHAT_IF_CHART, _what_if_values, main, what_if_svg
+from simulator.errors import SimulatorError
 from ventsup.edges.charts import Panel, Series, panels_svg
 
-QUANTITIES = [column for column, _, _ in WHAT_IF_CHART]
-TITLES = [title for _, title, _ in WHAT_IF_CHART]
+ROOT = Path(__file__).resolve().parents[2]
+QUANTITIES = [column for column, *_ in WHAT_IF_CHART]
+# The panel titles for an SI site (the demo site).
+TITLES = [
+    "free-cooling hours [h]",
+    "occupied hours above comfort.high [h]",
+    "peak indoor temperature [°C]",
+]
 
 
 def lines(svg: ET.Element) -> dict[tuple[str, str], list[tuple[float, float, float]]]:
@@ -71,7 +78,7 @@ def test_what_if_writes_its_table_and_chart(
     found = lines(svg)
     # one line per quantity and zone
     assert sorted(found) == sorted((title, zone) for title in TITLES for zone in zones)
-    for column, title, _ in WHAT_IF_CHART:
+    for column, title in zip(QUANTITIES, TITLES, strict=True):
         for zone in zones:
             points = found[(title, zone)]
             mine = table[table["zone"] == zone].sort_values("opening_area")
@@ -83,6 +90,65 @@ def test_what_if_writes_its_table_and_chart(
         by_value = sorted(drawn, key=lambda p: p[1])
         heights = [cy for _, _, cy in by_value]
         assert all(a >= b - 0.051 for a, b in itertools.pairwise(heights))
+
+
+def test_what_if_in_the_units_of_an_ip_site(
+    tmp_path: Path, capsys: pytest.CaptureFixture[str]
+) -> None:
+    out = tmp_path / "what-if"
+    status = main(
+        [
+            "--site",
+            str(ROOT / "config" / "demo-site-ip.yaml"),
+            "--start",
+            "2024-05-01",
+            "--end",
+            "2024-05-02",
+            "--step",
+            "3600",
+            "--what-if",
+            "hall.free_cooling.open_above=75F, 72 degF",
+            "--out",
+            str(out),
+        ]
+    )
+    assert status == 0, capsys.readouterr().err
+    # The table stays SI: 72 °F and 75 °F are (F - 32) x 5/9 °C (the definition
+    # of the Fahrenheit scale; the site loader keeps 9 decimals).
+    table = pd.read_csv(out / "what-if.csv")
+    parameter = "hall.free_cooling.open_above"
+    assert sorted(set(table[parameter])) == pytest.approx(
+        [(72.0 - 32.0) * 5.0 / 9.0, (75.0 - 32.0) * 5.0 / 9.0], abs=1e-9
+    )
+    # The chart reads in the site's units: the values as given, temperatures in °F.
+    svg = ET.parse(out / "what-if.svg").getroot()
+    text = "".join(svg.itertext())
+    assert f"{parameter} [°F]" in text
+    found = lines(svg)
+    peak = "peak indoor temperature [°F]"
+    for zone in dict.fromkeys(table["zone"]):
+        mine = table[table["zone"] == zone].sort_values(parameter)
+        points = found[(peak, zone)]
+        assert [x for x, _, _ in points] == pytest.approx([72.0, 75.0], abs=1e-6)
+        assert [y for _, y, _ in points] == pytest.approx(
+            list(mine["peak_temperature"] * 9.0 / 5.0 + 32.0), rel=1e-11
+        )
+
+
+def test_what_if_values_are_read_with_their_units(capsys: pytest.CaptureFixture[str]) -> None:
+    assert _what_if_values("free_cooling.open_above=22, 23.5,74 F") == (
+        "free_cooling.open_above",
+        [22.0, 23.5, "74 F"],
+    )
+    with pytest.raises(SimulatorError, match=r"'warm' in 'comfort\.high=warm' is not a number"):
+        _what_if_values("comfort.high=warm")
+    with pytest.raises(SimulatorError, match="expected some values"):
+        _what_if_values("comfort.high=,")
+    status = main(
+        ["--start", "2024-05-01", "--end", "2024-05-02", "--what-if", "opening_area=2 m2"]
+    )
+    assert status == 2
+    assert "opening_area: got '2 m2', expected a number (a factor)" in capsys.readouterr().err
 
 
 def test_what_if_svg_orders_values_and_leaves_out_unknowns() -> None:
