@@ -199,6 +199,7 @@ def main(argv: Sequence[str] | None = None) -> int:
                 start=args.start,
                 end=args.end,
                 step=args.step,
+                progress=_progress,
             )
             print(table.round(2).to_string())
             if args.out is not None:

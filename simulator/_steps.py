@@ -676,7 +676,7 @@ class Loop:
             m = min([end, *(z.repeats_until() if z.active else k + 1 for z in self.zones)])
             self._keep(k, m, end)
             k = m
-            if progress is not None and k >= next_report:
+            if progress is not None and next_report <= k < n:  # 1.0 once, at the end
                 progress(k / n)
                 next_report = (k // report_every + 1) * report_every
         for zi, zone in enumerate(self.zones):

@@ -1148,6 +1148,7 @@ def what_if(
     end: object = None,
     step: float = 600.0,
     zones: Sequence[str] | None = None,
+    progress: Callable[[float], None] | None = None,
 ) -> pd.DataFrame:
     """Run once per value of one parameter and tabulate the outcome per zone.
 
@@ -1160,6 +1161,8 @@ def what_if(
     values : iterable of float or str
         The values to try: numbers (SI), or for a rule text with its unit
         (``"75 F"``).
+    progress : callable, optional
+        Called with the share of all the runs done (0-1), as :func:`run` does.
 
     Returns
     -------
@@ -1169,7 +1172,13 @@ def what_if(
         (see :meth:`Result.summary`).
     """
     frames = []
-    for value in values:
+    values = list(values)
+    for index, value in enumerate(values):
+
+        def share(done: float, index: int = index) -> None:
+            if progress is not None:
+                progress((index + done) / len(values))
+
         if parameter == "opening_area":
             if isinstance(value, str):
                 raise SimulatorError(f"opening_area: got {value!r}, expected a number (a factor)")
@@ -1177,7 +1186,9 @@ def what_if(
         else:
             config = set_rule(site_config, parameter, value)
             value = rule_value(config, parameter)
-        result = run(config, building, weather, scenario, start, end, step, zones=zones)
+        result = run(
+            config, building, weather, scenario, start, end, step, zones=zones, progress=share
+        )
         summary = result.summary()[
             ["free_cooling_hours", "hours_above_comfort", "peak_temperature", "cooling_kwh"]
         ]

@@ -370,7 +370,13 @@ def test_what_if_opening_area_and_threshold(site: SiteConfig, building: Building
     )
     weather = synthetic(41.2, -88.1, TZ, "2024-05-19", "2024-05-27", mild, seed=2)
     span = {"start": "2024-05-20", "end": "2024-05-25", "step": 600.0, "zones": ["commons"]}
-    area = what_if(site, building, weather, "opening_area", [0.25, 1.0, 2.0], **span)
+    seen: list[float] = []
+    area = what_if(
+        site, building, weather, "opening_area", [0.25, 1.0, 2.0], progress=seen.append, **span
+    )
+    # Progress over all three runs: never back, each run's end once, 1.0 once at the end.
+    assert seen == sorted(seen) and seen[-1] == 1.0 and seen.count(1.0) == 1
+    assert seen.count(pytest.approx(1 / 3)) == 1 and seen.count(pytest.approx(2 / 3)) == 1
     assert list(area.columns) == [
         "free_cooling_hours",
         "hours_above_comfort",
