@@ -481,28 +481,44 @@ def report_on_change(
     repeat: float,
     last_t: FloatArray,
     last_value: FloatArray,
+    groups: npt.NDArray[np.int64],
 ) -> None:
     """Keep, in ``sent``, only the reports a gateway reporting on change makes.
 
     ``values[i, j]`` is what point ``j`` would publish at step ``i`` (time
-    ``t[i]``) where ``sent[i, j]``; the rest publish nothing. A value is
-    published when it differs from the last one the point published, or when
-    that one is ``repeat`` [s] old or older, or when the point has published
-    nothing yet; ``sent`` is cleared where it is not. ``last_t`` and
-    ``last_value`` are each point's last report before ``t[0]`` (NaN: none)
-    and are left as they were after the last step.
+    ``t[i]``) where ``sent[i, j]``; the rest publish nothing. A point is due
+    when its value differs from the last one it published, when that one is
+    ``repeat`` [s] old or older, or when it has published nothing yet. The
+    points of one group (``groups[j]``: the points that share a topic, one
+    message) are published together: all that have a value, whenever one of
+    them is due; ``sent`` is cleared where nothing is published. ``last_t``
+    and ``last_value`` are each point's last report before ``t[0]`` (NaN:
+    none) and are left as they were after the last step.
     """
     m, count = values.shape
-    for j in range(count):
-        when = last_t[j]
-        value = last_value[j]
+    order = np.argsort(groups, kind="mergesort")
+    first = 0
+    while first < count:
+        end = first + 1
+        while end < count and groups[order[end]] == groups[order[first]]:
+            end += 1
         for i in range(m):
-            if not sent[i, j]:
-                continue
-            if when == when and values[i, j] == value and t[i] - when < repeat:
-                sent[i, j] = False
-            else:
-                when = t[i]
-                value = values[i, j]
-        last_t[j] = when
-        last_value[j] = value
+            due = False
+            for member in range(first, end):
+                j = order[member]
+                if sent[i, j] and not (
+                    last_t[j] == last_t[j]
+                    and values[i, j] == last_value[j]
+                    and t[i] - last_t[j] < repeat
+                ):
+                    due = True
+            for member in range(first, end):
+                j = order[member]
+                if not sent[i, j]:
+                    continue
+                if due:
+                    last_t[j] = t[i]
+                    last_value[j] = values[i, j]
+                else:
+                    sent[i, j] = False
+        first = end

@@ -120,6 +120,14 @@ def round_to(values: FloatArray, resolution: FloatArray | float) -> FloatArray:
     return np.asarray(np.where(step > 0.0, rounded, values))
 
 
+def topic_groups(config: SiteConfig, names: Sequence[str]) -> IntArray:
+    """For each point of ``names``, the number of its topic among theirs (0, 1, ...)."""
+    ids: dict[str, int] = {}
+    return np.array(
+        [ids.setdefault(config.points[name].topic, len(ids)) for name in names], dtype=np.int64
+    )
+
+
 @dataclass
 class _Dynamic:
     """A point published from the simulated state each step (a column of the spans)."""
@@ -232,6 +240,8 @@ class Points:
             ]
         )
         self.rows = np.full((n, count), np.nan)
+        # Points that share a topic are one message: reported together (see report_on_change).
+        self.groups = topic_groups(config, [p.name for p in self.dynamic])
         # What is held before the current span: the step published (-1: never), the value.
         self.last = np.full(count, -1, dtype=np.int64)
         self.last_value = np.full(count, np.nan)
@@ -305,7 +315,7 @@ class Points:
         last_t = np.where(last >= 0, self.t[np.maximum(last, 0)], np.nan)
         last_value = self.last_value.copy()  # the span may be cut: keep() carries it
         t = self.t[k0 : k0 + values.shape[0]]
-        _kernel.report_on_change(values, sent, t, self.repeat, last_t, last_value)
+        _kernel.report_on_change(values, sent, t, self.repeat, last_t, last_value, self.groups)
         for j in self.faulted:
             objects = self.objects[j]
             for i in np.flatnonzero(~sent[:, j]).tolist():

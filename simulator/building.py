@@ -836,7 +836,9 @@ class Reporting:
     from the last one it published, and otherwise once ``repeat`` [s] has
     passed since then (report by exception with a periodic report, common
     practice for MQTT gateways and BACnet change-of-value subscriptions);
-    without it, every step. The default publishes every step, unrounded.
+    without it, every step. Points that share a topic are one message: all of
+    them go out whenever one is due. The default publishes every step,
+    unrounded.
     """
 
     on_change: bool = False

@@ -737,10 +737,9 @@ class _Plan:
         dynamic |= {p[0] for p in self.heating_points}
         dynamic |= {p[0] for p in self.position_points}
         self.static: list[tuple[str, list[Any]]] = []
-        self.static_published: dict[str, FloatArray] = {}
-        for name, values in static.items():
-            published = self._publish_static(name, values)
-            self.static_published[name] = published
+        self.static_published = self._publish_static(static, dynamic)
+        for name in static:
+            published = self.static_published[name]
             binary = config.points[name].kind is PointKind.BINARY
             as_list = [
                 None if math.isnan(v) else (bool(v) if binary else v) for v in published.tolist()
@@ -749,9 +748,45 @@ class _Plan:
         sourced = set(static) | dynamic
         self.unsourced = tuple(sorted(set(config.points) - sourced))
 
-    def _publish_static(self, name: str, values: Any) -> FloatArray:
-        """The value published at each step (NaN: nothing): rounded to the reporting
-        resolution, faults and plausibility applied, reported on change if so set."""
+    def _publish_static(
+        self, static: Mapping[str, Any], dynamic: set[str]
+    ) -> dict[str, FloatArray]:
+        """Each precomputed point's value published at each step (NaN: nothing):
+        rounded to the reporting resolution, faults and plausibility applied, and
+        reported on change (with the points of its topic) if the building says so."""
+        candidates = {name: self._candidate(name, values) for name, values in static.items()}
+        reporting = self.building.reporting
+        if not reporting.on_change or not candidates:
+            return candidates
+        names = list(candidates)
+        for name in names:
+            topic = self.config.points[name].topic
+            shared = sorted(p for p in dynamic if self.config.points[p].topic == topic)
+            if shared:
+                raise SimulatorError(
+                    f"points {name} and {', '.join(shared)} share the topic {topic!r}, but the "
+                    "simulator computes the first before the run and the others step by step: "
+                    "it cannot report them together on change (unfinished); give them topics "
+                    "of their own or leave reporting.on_change out"
+                )
+        matrix = np.stack([candidates[name] for name in names], axis=1)
+        sent = ~np.isnan(matrix)
+        nothing = np.full(len(names), np.nan)
+        _kernel.report_on_change(
+            matrix,
+            sent,
+            self.t,
+            reporting.repeat,
+            nothing,
+            nothing.copy(),
+            _steps.topic_groups(self.config, names),
+        )
+        matrix[~sent] = np.nan
+        return {name: np.ascontiguousarray(matrix[:, j]) for j, name in enumerate(names)}
+
+    def _candidate(self, name: str, values: Any) -> FloatArray:
+        """What a precomputed point would publish at each step (NaN: nothing), before
+        reporting on change: rounded, faults and plausibility applied."""
         point = self.config.points[name]
         binary = point.kind is PointKind.BINARY
         reporting = self.building.reporting
@@ -782,13 +817,6 @@ class _Plan:
         if not binary:
             low, high = point.plausible_range
             published[(published < low) | (published > high)] = np.nan
-        if reporting.on_change:
-            sent = ~np.isnan(published)[:, None]
-            nothing = np.full(1, np.nan)
-            _kernel.report_on_change(
-                published[:, None], sent, self.t, reporting.repeat, nothing, nothing.copy()
-            )
-            published[~sent[:, 0]] = np.nan
         return published
 
     # ------------------------------------------------------------------ loop

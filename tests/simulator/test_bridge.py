@@ -20,6 +20,7 @@ import signal
 import subprocess
 import sys
 import uuid
+from collections.abc import Callable
 from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
@@ -33,6 +34,7 @@ from simulator.building import Building, load_building
 from simulator.errors import ControllerError
 from simulator.loop import Result, run
 from simulator.scenario import parse_scenario
+from simulator.weather import Weather
 from ventsup.config import load_config
 from ventsup.config.model import SiteConfig
 from ventsup.core.state import Decision, Mode
@@ -59,9 +61,13 @@ events:
 """
 
 
-def site_text(prefix: str, port: int, *, tick: str = "60 s") -> str:
-    """The demo site with every point topic and the controller's prefix under ``prefix``."""
-    text = DEMO_SITE.read_text(encoding="utf-8").replace("topic: qlc/", f"topic: {prefix}/qlc/")
+def site_text(
+    prefix: str, port: int, *, tick: str = "60 s", edit: Callable[[str], str] | None = None
+) -> str:
+    """The demo site (``edit``-ed) with every point topic and the controller's prefix
+    under ``prefix``."""
+    text = DEMO_SITE.read_text(encoding="utf-8")
+    text = (edit or str)(text).replace("topic: qlc/", f"topic: {prefix}/qlc/")
     return text + (
         f"\nprefix: {prefix}/ctl\n"
         f"mqtt: {{host: 127.0.0.1, port: {port}}}\n"
@@ -69,11 +75,13 @@ def site_text(prefix: str, port: int, *, tick: str = "60 s") -> str:
     )
 
 
-def write_site(directory: Path, port: int, **options: str) -> Path:
+def write_site(
+    directory: Path, port: int, edit: Callable[[str], str] | None = None, **options: str
+) -> Path:
     directory.mkdir(parents=True, exist_ok=True)
     path = directory / "site.yaml"
     prefix = f"ventsup-test/bridge-{uuid.uuid4().hex}"
-    path.write_text(site_text(prefix, port, **options), encoding="utf-8")
+    path.write_text(site_text(prefix, port, edit=edit, **options), encoding="utf-8")
     return path
 
 
@@ -95,10 +103,21 @@ class ClosedLoop:
 
 
 def closed_loop(
-    directory: Path, port: int, script: str, start: str = START, end: str = END, **site: str
+    directory: Path,
+    port: int,
+    script: str,
+    start: str = START,
+    end: str = END,
+    *,
+    weather: Weather | None = None,
+    edit: Callable[[str], str] | None = None,
+    **site: str,
 ) -> ClosedLoop:
-    """Run ``script`` with the daemon in simulated time; the ledger is the daemon's default."""
-    path = write_site(directory, port, **site)
+    """Run ``script`` with the daemon in simulated time; the ledger is the daemon's default.
+
+    ``weather``: the mild afternoon unless given; ``edit`` changes the site file's text.
+    """
+    path = write_site(directory, port, edit, **site)
     config = load_config(path)
     building = load_building(DEMO_BUILDING, config)
     scenario = parse_scenario(script, "closed-loop.yaml", config)
@@ -109,7 +128,7 @@ def closed_loop(
             result = run(
                 config,
                 building,
-                mild_afternoon(),
+                weather or mild_afternoon(),
                 scenario,
                 start,
                 end,
@@ -289,6 +308,47 @@ def test_urgent_points_act_between_ticks_in_simulated_time(
     assert at(loop.result, "commons", "2024-07-02 13:22")["mode"] == Mode.PROTECTED.value
     assert at(loop.result, "commons", "2024-07-02 14:07")["mode"] == Mode.RELEASED.value
     assert recorded(loop, "commons", "2024-07-02 14:08") == []  # between ticks: nothing new
+
+
+def test_points_sharing_a_topic_go_out_in_one_message(
+    mosquitto_module: Any, tmp_path: Path
+) -> None:
+    # The rooftop station sends temperature and humidity in one JSON document. Its
+    # gateway reports on change (the demo building's reporting): when the
+    # temperature changes, the humidity goes along in the same message, so the
+    # daemon never meets a document without one of its fields.
+    def one_document(text: str) -> str:
+        old = 'outdoor_rh:     {topic: qlc/weather/roof/rh, kind: humidity, unit: "%",'
+        assert old in text
+        return text.replace(
+            old, 'outdoor_rh: {topic: qlc/weather/roof, json_path: rh, kind: humidity, unit: "%",'
+        )
+
+    index = pd.date_range("2024-07-02 08:00", periods=12, freq="h", tz=TZ)
+    warming = mild_afternoon()
+    frame = warming.frame.copy()
+    frame["temp_outdoor"] = np.linspace(15.0, 21.0, len(index))  # 0.1 K every 5-6 min
+    weather = Weather(frame, source="a warming afternoon")
+    loop = closed_loop(
+        tmp_path, mosquitto_module.port, SCENARIO, START, "2024-07-02 15:00",
+        weather=weather, edit=one_document,
+    )  # fmt: skip
+    assert loop.site.points["outdoor_rh"].topic == loop.site.points["outdoor_temp"].topic
+    published = loop.result.published
+    temp, rh = (~np.isnan(published[name]) for name in ("outdoor_temp", "outdoor_rh"))
+    assert (temp == rh).all()
+    # The humidity went out unchanged, before its own repeat, because the temperature changed.
+    t = np.flatnonzero(rh) * STEP
+    values = published["outdoor_rh"][rh]
+    assert ((values[1:] == values[:-1]) & (np.diff(t) < 240.0)).any()
+    assert loop.stats.rejected == 0 and loop.counts["accepted"] == loop.stats.accepted
+    in_process = run(
+        loop.site, loop.building, weather, parse_scenario(SCENARIO, "s.yaml", loop.site),
+        START, "2024-07-02 15:00", STEP, controller=CommandedCore(loop.site),
+        initial_temperature=26.0,
+    )  # fmt: skip
+    for zone, frame in in_process.zones.items():
+        pd.testing.assert_frame_equal(loop.result.zones[zone], frame)
 
 
 # --------------------------------------------------------------------------- failures
