@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import queue
 import socket
+import threading
 import time
 import uuid
 from pathlib import Path
@@ -180,6 +181,36 @@ def test_status_online_will_on_a_broken_connection_and_offline_on_close(
         offline = next_item(watched, Message)
         assert (offline.payload, client.connected) == (b"offline", False)
         assert client.stats.connects == 2
+
+
+@pytest.mark.broker
+def test_wait_all_delivered_counts_a_publish_in_progress_on_another_thread(
+    mosquitto: Any, topic_prefix: str
+) -> None:
+    items: queue.Queue[Any] = queue.Queue()
+    with MqttClient(settings(mosquitto), items) as client:
+        client.connect()
+        # Hold a publish inside paho's publish() (the window before the edge knows
+        # its message id): waiting for delivery must not answer "all delivered".
+        inside, release = threading.Event(), threading.Event()
+        paho_publish = client._client.publish
+
+        def held(*args: Any, **kwargs: Any) -> Any:
+            inside.set()
+            assert release.wait(WAIT)
+            return paho_publish(*args, **kwargs)
+
+        client._client.publish = held  # type: ignore[method-assign]
+        publisher = threading.Thread(
+            target=client.publish, args=(f"{topic_prefix}/held", b"x"), kwargs={"qos": 1}
+        )
+        publisher.start()
+        assert inside.wait(WAIT)
+        assert client.wait_all_delivered(0.2) is False
+        release.set()
+        assert client.wait_all_delivered(WAIT) is True
+        publisher.join(WAIT)
+        assert client.stats.delivered >= 1 and client.stats.pending == 0
 
 
 @pytest.mark.broker

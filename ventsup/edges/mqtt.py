@@ -435,6 +435,9 @@ class MqttClient:
         )
         self._counts["refused"] = 0
         self._pending: dict[int, str] = {}  # mid -> topic, awaiting on-publish
+        # QoS 1/2 publishes handed to paho and not yet in _pending (another thread's
+        # wait_all_delivered must not take "nothing pending" for "all delivered").
+        self._publishing = 0
         # mid -> (monotonic time of the acknowledgement, failure reason or None)
         self._acks: OrderedDict[int, tuple[float, str | None]] = OrderedDict()
         self._subscribe_mids: dict[int, tuple[str, ...]] = {}
@@ -717,14 +720,22 @@ class MqttClient:
             An invalid topic or payload, or the in-memory queue is full.
         """
         started = time.monotonic()
-        if qos > 0 and not self._tracking:  # before the publish: its ack may come at once
-            self._tracking = True
-            self._client.on_publish = self._guard("publish", self._on_publish)
+        if qos > 0:
+            if not self._tracking:  # before the publish: its ack may come at once
+                self._tracking = True
+                self._client.on_publish = self._guard("publish", self._on_publish)
+            with self._cond:
+                self._publishing += 1
         try:
             info = self._client.publish(topic, payload, qos=qos, retain=retain)
         except (ValueError, TypeError) as exc:
+            self._publish_failed(qos)
             raise MqttError(f"cannot publish to {topic!r}: {exc}") from exc
+        except BaseException:
+            self._publish_failed(qos)
+            raise
         if info.rc == MQTTErrorCode.MQTT_ERR_QUEUE_SIZE:
+            self._publish_failed(qos)
             raise MqttError(
                 f"cannot publish to {topic!r}: {self.settings.max_queued} messages already "
                 "wait for the broker"
@@ -732,6 +743,8 @@ class MqttClient:
         with self._cond:
             self._counts["published"] += 1
             if qos > 0:
+                self._publishing -= 1
+                self._cond.notify_all()
                 ack = self._acks.get(info.mid)
                 if ack is not None and ack[0] >= started:  # acknowledged before we got here
                     self._settle(topic, ack[1])
@@ -739,6 +752,13 @@ class MqttClient:
                     self._acks.pop(info.mid, None)  # a stale one from a wrapped-around mid
                     self._pending[info.mid] = topic
         return int(info.mid)
+
+    def _publish_failed(self, qos: int) -> None:
+        """A QoS 1/2 publish that paho refused is no longer in progress."""
+        if qos > 0:
+            with self._cond:
+                self._publishing -= 1
+                self._cond.notify_all()
 
     @contextlib.contextmanager
     def corked(self) -> Iterator[None]:
@@ -859,10 +879,14 @@ class MqttClient:
             return None if ack is None else ack[1]
 
     def wait_all_delivered(self, timeout: float) -> bool:
-        """Wait until no QoS 1 or 2 publish is pending; True if none is left."""
+        """Wait until no QoS 1 or 2 publish is pending; True if none is left.
+
+        A publish another thread is making counts from the moment it is handed
+        to paho, so "nothing pending" is never read in the middle of one.
+        """
         deadline = time.monotonic() + timeout
         with self._cond:
-            while self._pending:
+            while self._pending or self._publishing:
                 remaining = deadline - time.monotonic()
                 if remaining <= 0:
                     return False
