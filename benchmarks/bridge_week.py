@@ -132,7 +132,15 @@ def main() -> int:
         action="store_true",
         help="the pure-Python broker amqtt (pip install amqtt) with MQTT 3.1.1, not mosquitto",
     )
-    parser.add_argument("--protocol", choices=("5", "3.1.1"), default=None)
+    parser.add_argument(
+        "--protocol", choices=("5", "3.1.1"), default=None, help="the daemon's (site's) MQTT"
+    )
+    parser.add_argument(
+        "--gateway-protocol",
+        choices=("3.1.1", "5"),
+        default="3.1.1",
+        help="the simulator's own MQTT version (as python -m simulator --mqtt; default 3.1.1)",
+    )
     args = parser.parse_args()
     protocol = args.protocol or ("3.1.1" if args.amqtt else "5")
     start = pd.Timestamp("2024-07-01", tz=TZ)
@@ -158,7 +166,8 @@ def main() -> int:
         )
         print(
             f"demo building, {args.days:g} days at {args.step:g} s steps ({steps} steps); "
-            f"{gateways}; MQTT {site.mqtt.protocol}; broker {Path(broker_command[0]).name}"
+            f"{gateways}; MQTT {site.mqtt.protocol} for the daemon, "
+            f"{args.gateway_protocol} for the simulator; broker {Path(broker_command[0]).name}"
         )
 
         began = time.perf_counter()
@@ -180,7 +189,7 @@ def main() -> int:
                 stderr=subprocess.STDOUT,
             )
             cpu_self = resource.getrusage(resource.RUSAGE_SELF)
-            with MqttController(site, timeout=60.0) as controller:
+            with MqttController(site, timeout=60.0, protocol=args.gateway_protocol) as controller:
                 cpu_daemon, cpu_broker = _cpu_seconds(daemon.pid), _cpu_seconds(broker.pid)
                 began = time.perf_counter()
                 result = run(

@@ -101,6 +101,15 @@ def _parser() -> argparse.ArgumentParser:
         "--prefix", help="the controller's topic prefix, if not the site file's prefix"
     )
     mqtt.add_argument(
+        "--gateway-protocol",
+        choices=("3.1.1", "5", "site"),
+        default="3.1.1",
+        help=(
+            "MQTT version of the simulator's own connection (the gateways it plays; "
+            "default 3.1.1); 'site': the site's, as the daemon uses"
+        ),
+    )
+    mqtt.add_argument(
         "--timeout",
         type=float,
         default=30.0,
@@ -177,6 +186,7 @@ def main(argv: Sequence[str] | None = None) -> int:
                 timeout=args.timeout,
                 config_dir=args.site.resolve().parent,
                 progress=_progress,
+                protocol=None if args.gateway_protocol == "site" else args.gateway_protocol,
             )
             print(
                 f"over MQTT with the controller under {site.topic_prefix}: {stats.steps} steps, "

@@ -100,6 +100,7 @@ class ClosedLoop:
     decisions: list[tuple[Decision, str]]  # (decision, trigger), as recorded
     frame: pd.DataFrame  # Ledger.decisions_frame()
     counts: dict[str, int]  # the daemon's counters at the end
+    protocol: str  # of the simulator's own connection
 
 
 def closed_loop(
@@ -111,6 +112,7 @@ def closed_loop(
     *,
     weather: Weather | None = None,
     edit: Callable[[str], str] | None = None,
+    protocol: str | None = "3.1.1",
     **site: str,
 ) -> ClosedLoop:
     """Run ``script`` with the daemon in simulated time; the ledger is the daemon's default.
@@ -124,7 +126,7 @@ def closed_loop(
     service = Service(config, config_dir=directory, sim_clock=True)
     service.start()
     try:
-        with MqttController(config, timeout=WAIT) as controller:
+        with MqttController(config, timeout=WAIT, protocol=protocol) as controller:
             result = run(
                 config,
                 building,
@@ -147,16 +149,24 @@ def closed_loop(
         decisions = list(ledger.decisions())
         frame = ledger.decisions_frame()
     return ClosedLoop(
-        config, building, result, controller.stats, decisions, frame, service.supervisor.counts
+        config,
+        building,
+        result,
+        controller.stats,
+        decisions,
+        frame,
+        service.supervisor.counts,
+        controller.settings.protocol,
     )
 
 
 @pytest.fixture(scope="module")
 def loops(mosquitto_module: Any, tmp_path_factory: pytest.TempPathFactory) -> list[ClosedLoop]:
-    """The scripted afternoon, twice, each with a fresh daemon and ledger."""
+    """The scripted afternoon, twice, each with a fresh daemon and ledger: the simulator
+    on MQTT 3.1.1 (its default), then on the site's MQTT 5 (the daemon's)."""
     return [
-        closed_loop(tmp_path_factory.mktemp(name), mosquitto_module.port, SCENARIO)
-        for name in ("first", "second")
+        closed_loop(tmp_path_factory.mktemp(name), mosquitto_module.port, SCENARIO, protocol=p)
+        for name, p in (("first", "3.1.1"), ("second", None))
     ]
 
 
@@ -258,6 +268,8 @@ def test_every_value_was_accepted_and_every_output_counted(loop: ClosedLoop) -> 
 
 def test_two_runs_decide_identically(loops: list[ClosedLoop]) -> None:
     first, second = loops
+    # Whichever MQTT version the simulator's gateways speak.
+    assert (first.protocol, second.protocol) == ("3.1.1", "5")
     assert len(first.decisions) > 3 * len(first.result.zones["commons"])
     # Every recorded decision, with its reason, limits, facts and trigger.
     assert first.decisions == second.decisions
