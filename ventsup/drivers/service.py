@@ -505,44 +505,32 @@ class Service:
                     step.points,
                     step.waiting.messages,
                 )
-                self._sim_step(step.waiting, step.pending, step.order, step.schedule)
-                step.clear()
+                self._sim_step(step)
             try:
                 step.waiting = parse_tick(item.payload)
             except ValueError as exc:
                 self._sim_ack(None, str(exc))
         if step.waiting is not None and step.points >= step.waiting.messages:
-            self._sim_step(step.waiting, step.pending, step.order, step.schedule)
-            step.clear()
+            self._sim_step(step)
 
-    def _sim_step(
-        self,
-        tick: Tick,
-        messages: list[Message],
-        order: Mapping[str, tuple[int, int]],
-        schedule: _SimSchedule,
-    ) -> None:
-        """Handle one step at ``tick.t``: its messages, what is due, then the acknowledgement."""
-        sup, clock = self.supervisor, self.manual_clock
-        assert sup is not None and clock is not None
+    def _sim_step(self, step: _SimStep) -> None:
+        """Handle the gathered step: its messages, what is due, then the acknowledgement;
+        then start gathering the next one."""
+        tick = step.waiting
+        assert tick is not None and self.mqtt is not None and self.manual_clock is not None
         try:
-            clock.set(tick.t)
+            self.manual_clock.set(tick.t)
         except ValueError as exc:
             self._sim_ack(tick, f"step {tick.step}: {exc}")
-            return
-        assert self.mqtt is not None
-        with self.mqtt.corked():  # the step's outputs and its ack in as few segments as can be
-            self._sim_outputs(tick, messages, order, schedule)
+        else:
+            with self.mqtt.corked():  # the step's outputs and its ack in few segments
+                self._sim_outputs(tick, step)
+        step.clear()
 
-    def _sim_outputs(
-        self,
-        tick: Tick,
-        messages: list[Message],
-        order: Mapping[str, tuple[int, int]],
-        schedule: _SimSchedule,
-    ) -> None:
+    def _sim_outputs(self, tick: Tick, step: _SimStep) -> None:
         sup = self.supervisor
         assert sup is not None
+        messages, order, schedule = step.pending, step.order, step.schedule
         t = tick.t
         controller = self.config.controller
         if not sup.ready:
@@ -553,9 +541,7 @@ class Service:
         )
         for _, message in ranked:
             try:
-                sup.handle(
-                    Message(message.topic, message.payload, message.qos, message.retain, t), t
-                )
+                sup.handle(message.at(t), t)
             except Exception:
                 sup.counts["evaluation_errors"] += 1
                 _log.exception("handling a message on %s failed; carrying on", message.topic)
