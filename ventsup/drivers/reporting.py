@@ -233,13 +233,18 @@ class ReportPaths:
         return [self.json, *self.csv.values(), self.html]
 
 
+def _stem(config: SiteConfig, period: Period) -> str:
+    """What every file of a period's report is named before its suffix."""
+    return f"{config.slug}-{period.label}"
+
+
 def _base(config: SiteConfig, period: Period, out_dir: Path) -> Path:
-    return out_dir / f"{config.slug}-{period.label}"
+    return out_dir / _stem(config, period)
 
 
 def page_name(config: SiteConfig, period: Period) -> str:
     """The file name of a period's report page, as :func:`write_report` writes it."""
-    return f"{config.slug}-{period.label}.html"
+    return _stem(config, period) + ".html"
 
 
 def _page(config: SiteConfig, period: Period, out_dir: Path) -> Path:

@@ -686,7 +686,7 @@ _LAST_SEQ: Final = (
     "SELECT max("
     + ", ".join(
         f"coalesce((SELECT seq FROM {table} ORDER BY id DESC LIMIT 1), 0)"
-        for table in ("messages", "decisions", "events")
+        for table in _RECORD_TABLES
     )
     + ")"
 )
