@@ -40,10 +40,14 @@ CO2 [ppm], heating on (1.0) at the end of the last step.
 from __future__ import annotations
 
 import math
+from typing import TYPE_CHECKING
 
 import numba
 import numpy as np
 import numpy.typing as npt
+
+if TYPE_CHECKING:
+    from simulator.building import RCParameters
 
 FloatArray = npt.NDArray[np.float64]
 
@@ -90,6 +94,19 @@ _SPECIFIC_HEAT_AIR = 1005.0
 _SINGLE_SIDED_WIND = 0.025
 _EFFECTIVENESS_PERPENDICULAR = 0.5
 _EFFECTIVENESS_DIAGONAL = 0.3
+
+
+def set_rc_constants(row: FloatArray, params: RCParameters) -> None:
+    """Write a zone's ISO 13790 network (``params``) into its ``zone_const`` row."""
+    row[Z_H_WINDOW] = params.conductance_window
+    row[Z_H_OPAQUE] = params.conductance_opaque
+    row[Z_H_AIR_SURFACE] = params.conductance_air_surface
+    row[Z_H_SURFACE_MASS] = params.conductance_surface_mass
+    row[Z_CAPACITY] = params.capacity
+    row[Z_CAPACITY_AIR] = params.capacity_air
+    row[Z_SHARE_MASS] = params.share_mass
+    row[Z_SHARE_SURFACE] = params.share_surface
+    row[Z_FLOOR_AREA] = params.floor_area
 
 
 @numba.njit(cache=True)

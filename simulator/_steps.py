@@ -174,7 +174,6 @@ class Points:
         faults: Any,
         reporting: Reporting | None = None,
     ) -> None:
-        self.config = config
         reporting = Reporting() if reporting is None else reporting
         self.repeat = reporting.repeat if reporting.on_change else None
         self.t = t
@@ -586,7 +585,6 @@ class Loop:
         wind_speed: FloatArray,
         trace: Trace | None,
     ) -> None:
-        self.config = config
         self.core = core_config  # the core's config when repeats are skipped
         self.controller = controller
         self.constant = constant

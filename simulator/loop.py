@@ -726,12 +726,6 @@ class _Plan:
                 if feedback is not None:
                     self.position_points.append((feedback, global_index))
         self.heating_points = [(p, tuple(z)) for p, z in heating_zones.items()]
-        self.dynamic_names = [
-            *(p[0] for p in self.temperature_points),
-            *(p[0] for p in self.co2_points),
-            *(p[0] for p in self.heating_points),
-            *(p[0] for p in self.position_points),
-        ]
         dynamic = {p[0] for p in self.temperature_points}
         dynamic |= {p[0] for p in self.co2_points}
         dynamic |= {p[0] for p in self.heating_points}
@@ -917,15 +911,7 @@ class _Plan:
             ]
             params = model.rc_parameters()
             row = zone_const[zi]
-            row[_kernel.Z_H_WINDOW] = params.conductance_window
-            row[_kernel.Z_H_OPAQUE] = params.conductance_opaque
-            row[_kernel.Z_H_AIR_SURFACE] = params.conductance_air_surface
-            row[_kernel.Z_H_SURFACE_MASS] = params.conductance_surface_mass
-            row[_kernel.Z_CAPACITY] = params.capacity
-            row[_kernel.Z_CAPACITY_AIR] = params.capacity_air
-            row[_kernel.Z_SHARE_MASS] = params.share_mass
-            row[_kernel.Z_SHARE_SURFACE] = params.share_surface
-            row[_kernel.Z_FLOOR_AREA] = params.floor_area
+            _kernel.set_rc_constants(row, params)
             row[_kernel.Z_INFILTRATION] = model.infiltration_flow
             row[_kernel.Z_VOLUME] = model.volume
             row[_kernel.Z_HEIGHT] = model.height

@@ -28,15 +28,7 @@ def constants(
     params: RCParameters, max_heating: float = 0.0, max_cooling: float = 0.0
 ) -> np.ndarray:
     row = np.zeros(_kernel.ZONE_CONSTANTS)
-    row[_kernel.Z_H_WINDOW] = params.conductance_window
-    row[_kernel.Z_H_OPAQUE] = params.conductance_opaque
-    row[_kernel.Z_H_AIR_SURFACE] = params.conductance_air_surface
-    row[_kernel.Z_H_SURFACE_MASS] = params.conductance_surface_mass
-    row[_kernel.Z_CAPACITY] = params.capacity
-    row[_kernel.Z_CAPACITY_AIR] = params.capacity_air
-    row[_kernel.Z_SHARE_MASS] = params.share_mass
-    row[_kernel.Z_SHARE_SURFACE] = params.share_surface
-    row[_kernel.Z_FLOOR_AREA] = params.floor_area
+    _kernel.set_rc_constants(row, params)  # as the closed loop fills it
     row[_kernel.Z_MAX_HEATING] = max_heating
     row[_kernel.Z_MAX_COOLING] = max_cooling
     return row
