@@ -56,6 +56,7 @@ from typing import Any
 
 import numpy as np
 import pandas as pd
+from pydantic import ValidationError
 
 from simulator.building import Building
 from simulator.errors import ControllerError, SimulatorError
@@ -257,10 +258,12 @@ class MqttController:
         if port is not None:
             update["port"] = port
         if protocol is not None:
-            if protocol not in ("3.1.1", "5"):
-                raise SimulatorError(f"protocol: got {protocol!r}, expected '3.1.1' or '5'")
             update["protocol"] = protocol
-        mqtt = config.mqtt.model_copy(update=update)
+        try:  # checked as the site file's mqtt section is (model_copy would not)
+            mqtt = type(config.mqtt).model_validate({**config.mqtt.model_dump(), **update})
+        except ValidationError as exc:
+            why = "; ".join(f"{'.'.join(map(str, e['loc']))}: {e['msg']}" for e in exc.errors())
+            raise SimulatorError(f"MQTT settings for the simulator: {why}") from None
         try:
             self.settings = MqttSettings.from_config(
                 mqtt,

@@ -846,15 +846,15 @@ class Reporting:
     resolution: Mapping[PointKind, float] = field(default_factory=dict)
 
 
-#: The point kinds a resolution may be given for, and how it is written.
+#: The point kinds a resolution may be given for, and how it is written: in the
+#: kind's own quantity, a temperature as a difference; humidity (no unit
+#: quantity of its own, % RH) as a relative humidity. Binary points: none.
 _RESOLUTION_QUANTITY: dict[PointKind, str] = {
-    PointKind.TEMPERATURE: "temperature_delta",
-    PointKind.DEW_POINT: "temperature_delta",
-    PointKind.HUMIDITY: "relative_humidity",
-    PointKind.WIND_SPEED: "speed",
-    PointKind.WIND_DIRECTION: "angle",
-    PointKind.CO2: "concentration",
-    PointKind.POSITION: "fraction",
+    kind: {"temperature": "temperature_delta"}.get(kind.quantity, kind.quantity)
+    if kind.quantity is not None
+    else "relative_humidity"
+    for kind in PointKind
+    if kind is not PointKind.BINARY
 }
 
 

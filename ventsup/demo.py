@@ -129,10 +129,7 @@ def simulate(
     from simulator.loop import run
     from ventsup.core.figures import decisions_to_frame
 
-    if not every_step:
-        result = run(config, building, weather, scenario, start, end, step, progress=progress)
-        return result, result.decisions_frame()
-    recorder = _Recorder(config)
+    recorder = _Recorder(config) if every_step else None
     result = run(
         config,
         building,
@@ -144,6 +141,8 @@ def simulate(
         controller=recorder,
         progress=progress,
     )
+    if recorder is None:
+        return result, result.decisions_frame()
     return result, decisions_to_frame(recorder.decisions, config)
 
 
