@@ -75,6 +75,7 @@ from ventsup.core.horizon import (
     Readings,
     ZoneFeatures,
     advance_over,
+    grid_readings,
     outdoor_dew_point,
     schedule_edges,
     schedule_membership,
@@ -179,19 +180,16 @@ class Points:
         self.t = t
         self.t_list: list[float] = t.tolist()
         n = t.size
-        steps = np.arange(n, dtype=np.int64)
         self.static_last: dict[str, IntArray] = {}
         self.static_values: dict[str, list[Any]] = {}
         self.readings: dict[str, Readings] = {}
         for name, values in static:
-            published = static_published[name]
-            last = np.where(np.isnan(published), -1, steps)
-            np.maximum.accumulate(last, out=last)
-            safe = np.maximum(last, 0)
-            ok = (last >= 0) & (t - t[safe] <= config.points[name].stale_after)
+            last, readings = grid_readings(
+                t, static_published[name], config.points[name].stale_after
+            )
             self.static_last[name] = last
             self.static_values[name] = values
-            self.readings[name] = Readings(ok, np.where(ok, published[safe], np.nan))
+            self.readings[name] = readings
         by_name: dict[str, _Dynamic] = {}
         for name, kind, source, offset in dynamic:
             point = config.points[name]

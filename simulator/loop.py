@@ -81,7 +81,7 @@ from ventsup.config.model import Period, PointKind, SiteConfig
 from ventsup.core import physics, psychro
 from ventsup.core.decide import decide
 from ventsup.core.figures import FACTS, decisions_to_frame
-from ventsup.core.horizon import Readings, zone_features
+from ventsup.core.horizon import Readings, grid_readings, outdoor_dew_point, zone_features
 from ventsup.core.inputs import Held, zone_inputs, zone_points
 from ventsup.core.state import Cause, Decision, Layer, Mode, ZoneState
 
@@ -218,17 +218,12 @@ class Result:
         older than the point's ``stale_after`` (as :func:`ventsup.core.inputs.read_point`).
         A point that published nothing is absent."""
         t = to_epoch_seconds(pd.DatetimeIndex(self.outdoor.index))
-        steps = np.arange(t.size, dtype=np.int64)
         found: dict[str, Readings] = {}
         for name in self.published if names is None else names:
             values = self.published.get(name)
-            if values is None:
-                continue
-            last = np.where(np.isnan(values), -1, steps)
-            np.maximum.accumulate(last, out=last)
-            safe = np.maximum(last, 0)
-            ok = (last >= 0) & (t - t[safe] <= self.config.points[name].stale_after)
-            found[name] = Readings(ok, np.where(ok, values[safe], np.nan))
+            if values is not None:
+                stale_after = self.config.points[name].stale_after
+                found[name] = grid_readings(t, values, stale_after)[1]
         return found
 
     def decisions_frame(self) -> pd.DataFrame:
@@ -256,10 +251,12 @@ class Result:
         reason_text = self.reasons["reason"].to_numpy(dtype=object)
         outdoor = config.outdoor
         frames = []
+        every = self.readings()  # once: the zones share the outdoor points
+        dew_point = outdoor_dew_point(config, every, n)
         for order, (zone, frame) in enumerate(self.zones.items()):
             spec = config.zones[zone]
-            readings = self.readings(zone_points(config, zone))
-            features = zone_features(config, zone, readings, n)
+            readings = {name: every[name] for name in zone_points(config, zone) if name in every}
+            features = zone_features(config, zone, readings, n, dew_point=dew_point)
 
             def values(name: str | None, readings: Mapping[str, Readings] = readings) -> FloatArray:
                 found = readings.get(name) if name is not None else None

@@ -68,6 +68,8 @@ __all__ = [
     "ZoneFeatures",
     "advance",
     "advance_over",
+    "grid_readings",
+    "held_readings",
     "horizon",
     "next_schedule_edge",
     "next_timer",
@@ -86,6 +88,7 @@ __all__ = [
 
 FloatArray = npt.NDArray[np.float64]
 BoolArray = npt.NDArray[np.bool_]
+IntArray = npt.NDArray[np.int64]
 CodeArray = npt.NDArray[np.uint8]
 
 #: Time comparisons are treated as flipping this much early [s], so that float rounding
@@ -489,6 +492,31 @@ class Readings:
 
     ok: BoolArray
     value: FloatArray
+
+
+def held_readings(
+    times: FloatArray,
+    sample_t: FloatArray,
+    values: FloatArray,
+    at: IntArray,
+    stale_after: float,
+) -> Readings:
+    """A point's readings at ``times`` when the sample held at each is row ``at`` (-1:
+    none yet) of ``sample_t`` and ``values``: fresh while ``t - sample_t <=
+    stale_after``, as :func:`ventsup.core.inputs.read_point` reads a held sample."""
+    safe = np.maximum(at, 0)
+    ok = (at >= 0) & (times - sample_t[safe] <= stale_after)
+    return Readings(ok, np.where(ok, values[safe], np.nan))
+
+
+def grid_readings(
+    t: FloatArray, published: FloatArray, stale_after: float
+) -> tuple[IntArray, Readings]:
+    """A point published on the time grid ``t`` (``published``: NaN where nothing was):
+    the step of the sample held at each step (-1: none yet), and its readings."""
+    at = np.where(np.isnan(published), -1, np.arange(t.size, dtype=np.int64))
+    np.maximum.accumulate(at, out=at)
+    return at, held_readings(t, t, published, at, stale_after)
 
 
 @dataclass(frozen=True)

@@ -49,6 +49,7 @@ from ventsup.core.horizon import (
     Readings,
     ZoneFeatures,
     advance_over,
+    held_readings,
     next_timer,
     schedule_edges,
     schedule_membership,
@@ -355,10 +356,10 @@ def align(
             at = np.searchsorted(found.t, times, side="right").astype(np.int64) - 1
         else:
             at = _held_at(found.order, held)
-        safe = np.maximum(at, 0)
-        ok = (at >= 0) & (times - found.t[safe] <= config.points[name].stale_after)
         series[name], index[name] = found, at
-        readings[name] = Readings(ok, np.where(ok, found.value[safe], np.nan))
+        readings[name] = held_readings(
+            times, found.t, found.value, at, config.points[name].stale_after
+        )
     return Aligned(series, index, readings)
 
 
