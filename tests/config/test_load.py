@@ -495,7 +495,7 @@ def test_yaml_anchors_and_merge_keys_keep_lines() -> None:
     ]
 
 
-@settings(max_examples=150, deadline=None)
+@settings(max_examples=150)
 @given(st.text(max_size=200))
 def test_any_text_loads_or_raises_config_error(text: str) -> None:
     try:
@@ -505,7 +505,7 @@ def test_any_text_loads_or_raises_config_error(text: str) -> None:
         assert all(problem.file == "fuzz.yaml" for problem in exc.problems)
 
 
-@settings(max_examples=150, deadline=None)
+@settings(max_examples=150)
 @given(st.sets(st.integers(min_value=0, max_value=len(SITE.splitlines()) - 1), min_size=1))
 def test_dropping_lines_gives_problems_within_the_file(dropped: set[int]) -> None:
     lines = SITE.splitlines()

@@ -32,7 +32,7 @@ from ventsup.core.comfort import (
     tm52_overheating,
 )
 
-PROPERTY = settings(deadline=None)
+PROPERTY = settings()
 
 
 # ----------------------------------------------------------------------------------------

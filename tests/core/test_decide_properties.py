@@ -46,7 +46,7 @@ CONFIGS = {"demo": DEMO, "demo-with-smoke-vents": _demo_variant(vents=True)}
 # A tight hourly budget, so that random sequences reach it (site choice for the test).
 CARE_CONFIGS = {**CONFIGS, "demo-two-moves-per-hour": _demo_variant(max_moves=2)}
 ZONES = ("commons", "classroom_east", "studio_west")
-QUICK = settings(max_examples=40, deadline=None)
+QUICK = settings(max_examples=40)
 # Monday 08:00 in the demo's zone: 25 steps of at most 10 min stay in occupied hours.
 MONDAY_MORNING = epoch("America/Chicago", 2024, 6, 3, 8, 0)
 # Dry, calm, cool outdoor air in the free cooling band; no CO2 reading.
@@ -147,7 +147,7 @@ def _warm(temp_indoor: float, **changes: Any) -> Plain:
 SPENT_THEN_CAPPED = [_warm(26.0), _warm(24.0), _warm(26.0), _warm(23.0, wind_speed=9.0)]
 
 
-@settings(max_examples=60, deadline=None)
+@settings(max_examples=60)
 @given(st.sampled_from(sorted(CARE_CONFIGS)), zones, starts(), sequences(max_size=40))
 @example("demo-two-moves-per-hour", "classroom_east", MONDAY_MORNING, SPENT_THEN_CAPPED)
 def test_comfort_moves_per_rolling_hour_stay_within_the_limit(
@@ -266,7 +266,7 @@ def test_caps_in_force_hold_and_the_layer_fits_the_mode(
 # --------------------------------------------------------------------------- hysteresis
 
 
-@settings(max_examples=60, deadline=None)
+@settings(max_examples=60)
 @given(
     zones,
     st.sampled_from(["never-opened", "opened", "opened-then-closed"]),

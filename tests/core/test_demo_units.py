@@ -74,7 +74,7 @@ def assert_same(si: Decision, ip: Decision) -> None:
     assert without_units(si.reason) == without_units(ip.reason), (si.reason, ip.reason)
 
 
-@settings(max_examples=40, deadline=None)
+@settings(max_examples=40)
 @given(st.sampled_from(ZONES), starts(), sequences())
 def test_si_and_ip_decide_identically(zone: str, start: float, plan: list[Plain]) -> None:
     si_run = replay(SI, zone, start, plan)

@@ -110,7 +110,7 @@ def test_an_edge_example() -> None:
     assert next_schedule_edge([], BERLIN, monday) == math.inf
 
 
-@settings(max_examples=40, deadline=None)
+@settings(max_examples=40)
 @given(
     start=st.integers(0, 1439),
     length=st.integers(1, 1439),
@@ -311,7 +311,7 @@ def test_an_average_near_a_threshold_is_uncertain() -> None:
     assert features.uncertain.tolist() == [True, False]
 
 
-@settings(max_examples=40, deadline=None)
+@settings(max_examples=40)
 @given(
     st.lists(
         st.tuples(

@@ -42,7 +42,7 @@ from ventsup.core.physics import (
 
 psychrolib.SetUnitSystem(psychrolib.SI)
 
-PROPERTY = settings(deadline=None)
+PROPERTY = settings()
 
 areas = st.floats(min_value=1e-3, max_value=50.0, allow_nan=False)
 heights = st.floats(min_value=0.05, max_value=50.0, allow_nan=False)

@@ -26,7 +26,7 @@ from ventsup.core.psychro import (
 
 psychrolib.SetUnitSystem(psychrolib.SI)
 
-PROPERTY = settings(deadline=None, max_examples=300)
+PROPERTY = settings(max_examples=300)
 SEA_LEVEL = 101_325.0  # [Pa]
 
 temperatures = st.floats(min_value=-10.0, max_value=45.0, allow_nan=False)

@@ -92,7 +92,7 @@ def check(config: SiteConfig, log: PointLog, start: float, end: float, step: flo
 # --------------------------------------------------------------------------- random logs
 
 
-@settings(max_examples=14, deadline=None)
+@settings(max_examples=14)
 @given(
     night=st.sampled_from(DST_NIGHTS),
     aggregate=st.sampled_from(["max", "mean", "min", "hall_t2"]),
@@ -121,7 +121,7 @@ def test_identical_runs_over_the_daylight_saving_nights(
     check(config, log, start, start + 5 * 3600, step)
 
 
-@settings(max_examples=14, deadline=None)
+@settings(max_examples=14)
 @given(
     tz=st.sampled_from(["Europe/Berlin", "America/New_York", "America/Chicago"]),
     day=st.integers(0, 364),

@@ -7,6 +7,7 @@ import socket
 import threading
 import time
 import uuid
+from collections.abc import Callable
 from pathlib import Path
 from typing import Any
 
@@ -32,14 +33,24 @@ def settings(broker: Any, **options: Any) -> MqttSettings:
     return MqttSettings(broker.host, broker.port, **{**base, **options})
 
 
-def next_item(items: queue.Queue[Any], kind: type, match: Any = None) -> Any:
-    """The next item of ``kind`` (that ``match`` accepts), waiting at most WAIT seconds in all."""
+def next_item(
+    items: queue.Queue[Any],
+    kind: type,
+    match: Any = None,
+    poll: Callable[[float], Any] | None = None,
+) -> Any:
+    """The next item of ``kind`` (that ``match`` accepts), waiting at most WAIT seconds in all;
+    with ``poll`` (a client without a network thread) driving the client while none is there."""
     deadline = time.monotonic() + WAIT
     while True:
+        remaining = deadline - time.monotonic()
         try:
-            item = items.get(timeout=max(0.0, deadline - time.monotonic()))
+            item = items.get_nowait() if poll else items.get(timeout=max(0.0, remaining))
         except queue.Empty:
-            pytest.fail(f"no {kind.__name__} within {WAIT:g} s")
+            if poll is None or remaining <= 0:
+                pytest.fail(f"no {kind.__name__} within {WAIT:g} s")
+            poll(min(0.1, remaining))
+            continue
         if isinstance(item, kind) and (match is None or match(item)):
             return item
 
@@ -256,20 +267,10 @@ def test_a_corked_burst_and_a_large_message_arrive_whole_and_in_order(
     with receiver, MqttClient(settings(mosquitto), queue.Queue()) as sender:
         receiver.connect()
         sender.connect()
-        deadline = time.monotonic() + WAIT
+        poll = None if network_thread else receiver.poll
 
         def received(kind: type) -> Any:
-            while time.monotonic() < deadline:
-                if not network_thread and items.empty():
-                    receiver.poll(0.1)
-                    continue
-                try:
-                    item = items.get(timeout=0.1)
-                except queue.Empty:
-                    continue
-                if isinstance(item, kind):
-                    return item
-            pytest.fail(f"no {kind.__name__} within {WAIT:g} s")
+            return next_item(items, kind, poll=poll)
 
         received(Subscribed)
         with sender.corked():
@@ -296,16 +297,7 @@ def test_without_a_network_thread_poll_drives_it_and_reconnects(
         client.poll(0.0)  # not connected yet
 
     def polled(kind: type) -> Any:
-        deadline = time.monotonic() + WAIT
-        while time.monotonic() < deadline:
-            try:
-                item = items.get_nowait()
-            except queue.Empty:
-                client.poll(0.1)
-                continue
-            if isinstance(item, kind):
-                return item
-        pytest.fail(f"no {kind.__name__} within {WAIT:g} s")
+        return next_item(items, kind, poll=client.poll)
 
     with client:
         client.connect()  # answered without a network thread: connect polls too

@@ -43,7 +43,7 @@ gains = st.floats(0.0, 60_000.0)
 
 
 @pytest.mark.parametrize("air_node", [False, True])
-@settings(max_examples=60, deadline=None)
+@settings(max_examples=60)
 @given(
     zone_index=st.integers(0, 2),
     temp_mass=temperatures,
@@ -83,7 +83,7 @@ def test_step_zone_is_the_documented_step(
     assert close(operative, expected.temp_operative)
 
 
-@settings(max_examples=60, deadline=None)
+@settings(max_examples=60)
 @given(
     zone_index=st.integers(0, 2),
     temp_mass=temperatures,
@@ -144,7 +144,7 @@ opening = st.builds(
 )
 
 
-@settings(max_examples=150, deadline=None)
+@settings(max_examples=150)
 @given(
     openings=st.lists(opening, min_size=1, max_size=5),
     fractions=st.lists(

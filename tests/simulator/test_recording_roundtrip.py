@@ -26,13 +26,11 @@ from __future__ import annotations
 import signal
 import subprocess
 import sys
-import uuid
 from collections.abc import Iterable, Sequence
 from dataclasses import dataclass, replace
 from pathlib import Path
 from typing import Any
 
-import pandas as pd
 import pytest
 
 from simulator.bridge import MqttController
@@ -47,8 +45,9 @@ from ventsup.drivers.recording import Recording, read_recording
 from ventsup.drivers.replay import Run, replay_evaluations, run_key, runs_from_decisions
 from ventsup.drivers.replay_fast import plan_from_evaluations, replay_fast
 
-from .conftest import DEMO_BUILDING, DEMO_SITE
-from .test_loop import TZ, at, mild_afternoon
+from .conftest import DEMO_BUILDING
+from .test_bridge import epoch, write_site
+from .test_loop import at, mild_afternoon
 
 pytestmark = pytest.mark.broker
 
@@ -71,24 +70,6 @@ DECISION_FIELDS = (
     *("open_area", "windows_open", "limits", "facts", "events"),
 )
 LEDGER = Path("var") / "ventsup-quarry-lane-commons-sim.db"
-
-
-def epoch(local: str) -> float:
-    return pd.Timestamp(local, tz=TZ).timestamp()
-
-
-def write_site(directory: Path, port: int) -> Path:
-    """The demo site with its topics under a prefix of its own, on the test broker."""
-    prefix = f"ventsup-test/roundtrip-{uuid.uuid4().hex}"
-    text = DEMO_SITE.read_text(encoding="utf-8").replace("topic: qlc/", f"topic: {prefix}/qlc/")
-    text += (
-        f"\nprefix: {prefix}/ctl\n"
-        f"mqtt: {{host: 127.0.0.1, port: {port}}}\n"
-        "controller: {tick: 60 s, record_interval: 0.5 s}\n"
-    )
-    path = directory / "site.yaml"
-    path.write_text(text, encoding="utf-8")
-    return path
 
 
 @dataclass(frozen=True)

@@ -84,20 +84,25 @@ def _run(
     hours: float,
     seed: int,
     skip: bool,
+    weather: Weather | None = None,
+    initial_temperature: float = 21.0,
 ) -> tuple[Result, list[tuple[int, int, ZoneState]], int]:
-    weather = synthetic(
-        41.2,
-        -88.1,
-        site.site.time_zone,
-        start - pd.Timedelta(hours=2),
-        start + pd.Timedelta(hours=hours + 2),
-        seed=seed,
-    )
+    """The closed loop from ``start`` for ``hours``, in seeded synthetic weather unless
+    ``weather`` is given, with every zone state the loop holds traced."""
+    if weather is None:
+        weather = synthetic(
+            41.2,
+            -88.1,
+            site.site.time_zone,
+            start - pd.Timedelta(hours=2),
+            start + pd.Timedelta(hours=hours + 2),
+            seed=seed,
+        )
     plan = _plan(site, building, weather, scenario, start, start + pd.Timedelta(hours=hours), STEP)
     trace: list[tuple[int, int, ZoneState]] = []
     result = plan.simulate(
         CoreController(site, skip_repeats=skip),
-        21.0,
+        initial_temperature,
         None,
         lambda k, zone, state: trace.append((k, zone, state)),
     )
@@ -184,26 +189,9 @@ def test_a_zone_that_starts_heating_cuts_the_look_ahead_of_its_neighbour(
         "test.yaml",
         site,
     )
-    runs = []
-    for skip in (False, True):
-        plan = _plan(
-            site,
-            building,
-            weather,
-            scenario,
-            pd.Timestamp("2024-04-16 08:00", tz=site.site.time_zone),
-            pd.Timestamp("2024-04-16 19:00", tz=site.site.time_zone),
-            STEP,
-        )
-        trace: list[tuple[int, int, ZoneState]] = []
-        result = plan.simulate(
-            CoreController(site, skip_repeats=skip),
-            23.5,
-            None,
-            lambda k, zone, state, trace=trace: trace.append((k, zone, state)),
-        )
-        runs.append((result, trace))
-    (every, every_trace), (skipped, skipped_trace) = runs
+    start = pd.Timestamp("2024-04-16 08:00", tz=site.site.time_zone)
+    every, every_trace, _ = _run(site, building, scenario, start, 11.0, 0, False, weather, 23.5)
+    skipped, skipped_trace, _ = _run(site, building, scenario, start, 11.0, 0, True, weather, 23.5)
     # The run does what the test is about: the studio open while the classroom heats.
     studio, classroom = every.zones["studio_west"], every.zones["classroom_east"]
     after = classroom.index >= pd.Timestamp("2024-04-16 13:00", tz=site.site.time_zone)
