@@ -14,7 +14,6 @@ from pathlib import Path
 
 import pytest
 
-from ventsup.core.state import Cause, Decision, Layer, Mode
 from ventsup.edges import ledger as ledger_module
 from ventsup.edges.ledger import (
     SCHEMA_VERSION,
@@ -26,19 +25,7 @@ from ventsup.edges.ledger import (
     decision_to_row,
 )
 
-
-def decision(zone: str, t: float) -> Decision:
-    return Decision(
-        zone=zone,
-        t=t,
-        targets={"roof": 0.5},
-        mode=Mode.FREE_COOLING,
-        layer=Layer.COMFORT,
-        cause=Cause.COMFORT,
-        reason=f"{zone} at {t}",
-        windows_open=True,
-        open_area=1.0,
-    )
+from .test_ledger import decision
 
 
 def message(t: float, value: float) -> MessageRecord:
