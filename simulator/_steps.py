@@ -169,7 +169,6 @@ class Points:
         self,
         config: SiteConfig,
         t: FloatArray,
-        static: Sequence[tuple[str, list[Any]]],
         static_published: dict[str, FloatArray],
         dynamic: Sequence[tuple[str, int, Any, float]],
         faults: Any,
@@ -181,14 +180,15 @@ class Points:
         self.t_list: list[float] = t.tolist()
         n = t.size
         self.static_last: dict[str, IntArray] = {}
-        self.static_values: dict[str, list[Any]] = {}
+        self.static_published = static_published
+        # A value is made a Python object only where the core is asked (held()).
+        self.static_binary = {
+            name for name in static_published if config.points[name].kind is PointKind.BINARY
+        }
         self.readings: dict[str, Readings] = {}
-        for name, values in static:
-            last, readings = grid_readings(
-                t, static_published[name], config.points[name].stale_after
-            )
+        for name, published in static_published.items():
+            last, readings = grid_readings(t, published, config.points[name].stale_after)
             self.static_last[name] = last
-            self.static_values[name] = values
             self.readings[name] = readings
         by_name: dict[str, _Dynamic] = {}
         for name, kind, source, offset in dynamic:
@@ -392,7 +392,9 @@ class Points:
             if last is not None:
                 at = int(last[s])
                 if at >= 0:
-                    samples[name] = Sample(name, self.static_values[name][at], t_list[at])
+                    value = float(self.static_published[name][at])
+                    held = bool(value) if name in self.static_binary else value
+                    samples[name] = Sample(name, held, t_list[at])
                 continue
             j = self.column.get(name)
             if j is not None:

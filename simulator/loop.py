@@ -727,15 +727,7 @@ class _Plan:
         dynamic |= {p[0] for p in self.co2_points}
         dynamic |= {p[0] for p in self.heating_points}
         dynamic |= {p[0] for p in self.position_points}
-        self.static: list[tuple[str, list[Any]]] = []
         self.static_published = self._publish_static(static, dynamic)
-        for name in static:
-            published = self.static_published[name]
-            binary = config.points[name].kind is PointKind.BINARY
-            as_list = [
-                None if math.isnan(v) else (bool(v) if binary else v) for v in published.tolist()
-            ]
-            self.static.append((name, as_list))
         sourced = set(static) | dynamic
         self.unsourced = tuple(sorted(set(config.points) - sourced))
 
@@ -837,7 +829,6 @@ class _Plan:
         points = _steps.Points(
             self.config,
             self.t,
-            self.static,
             self.static_published,
             [
                 *(
