@@ -6,15 +6,17 @@ units and the site's wall-clock time.
 
 from __future__ import annotations
 
+from collections.abc import Callable
 from datetime import datetime
 from functools import lru_cache
-from math import copysign
-from typing import Protocol
+from typing import Any, Protocol, TypeVar
 from zoneinfo import ZoneInfo
 
 from ventsup.config.model import Opening, RuleSet, SiteConfig, Zone
 from ventsup.config.units import format_quantity
 from ventsup.core.state import ZoneState
+
+T = TypeVar("T")
 
 __all__ = ["Context", "ReadingLike"]
 
@@ -44,10 +46,28 @@ def known(reading: ReadingLike) -> bool:
 # for the same one. A bounded memo of a pure function (datetimes are immutable).
 _local_time = lru_cache(maxsize=64)(datetime.fromtimestamp)
 
+
+def value_memo(function: Callable[..., T], maxsize: int) -> Callable[..., T]:
+    """A bounded memo of a pure ``function`` of hashable arguments for the core.
+
+    Keys are typed (ints, floats and bools apart). A call whose first argument
+    (the value) is a float equal to zero is not memoised: 0.0 and -0.0 are equal
+    keys, but a function may tell them apart (a formatted "-0 %", a sign in a
+    result); put the value that may be zero first.
+    """
+    cached = lru_cache(maxsize=maxsize, typed=True)(function)
+
+    def call(value: Any, *rest: Any) -> T:
+        if value == 0.0 and value.__class__ is float:
+            return function(value, *rest)
+        return cached(value, *rest)
+
+    return call
+
+
 # format_quantity is pure and the same few values recur at every evaluation (the
 # rule set's limits, held readings): a bounded memo saves most of the formatting.
-# typed=True keeps ints, floats and bools apart.
-_format_memo = lru_cache(maxsize=4096, typed=True)(format_quantity)
+_format_memo = value_memo(format_quantity, 4096)
 
 
 class Context:
@@ -115,9 +135,6 @@ class Context:
 
     def fmt(self, value: float | None, quantity: str) -> str:
         """A value in the site's display units."""
-        if value is None or (value == 0.0 and copysign(1.0, value) < 0.0):
-            # -0.0 is an equal key to 0.0 but formats differently ("-0 %"): not memoised
-            return format_quantity(value, quantity, self._units)
         return _format_memo(value, quantity, self._units)
 
     def input(self, name: str) -> ReadingLike:

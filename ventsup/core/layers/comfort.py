@@ -12,11 +12,10 @@ occupied. While the plant heats the zone there is no cooling by windows.
 
 from __future__ import annotations
 
-from functools import lru_cache
 from typing import NamedTuple
 
 from ventsup.core import psychro
-from ventsup.core.context import Context, known
+from ventsup.core.context import Context, known, value_memo
 from ventsup.core.state import Cause, Mode
 
 __all__ = ["ComfortResult", "dew_point_outdoor", "evaluate", "free_cooling_fraction"]
@@ -60,8 +59,8 @@ def free_cooling_fraction(
 
 # Outdoor temperature and humidity are sampled and held, so consecutive evaluations
 # (and every zone of a site) ask for the same dew point: a bounded memo of the pure
-# Newton solution. Both arguments are floats, so equal keys give the same result.
-_dew_point_memo = lru_cache(maxsize=1024)(psychro.dew_point_from_relative_humidity)
+# Newton solution.
+_dew_point_memo = value_memo(psychro.dew_point_from_relative_humidity, 1024)
 
 
 def dew_point_outdoor(ctx: Context) -> float | None:
@@ -72,10 +71,7 @@ def dew_point_outdoor(ctx: Context) -> float | None:
     humidity, temp = ctx.input("humidity_outdoor"), ctx.input("temp_outdoor")
     if known(humidity) and known(temp):
         rh = min(max(float(humidity.value), 1.0), 100.0) / 100.0  # type: ignore[arg-type]
-        temp_air = float(temp.value)  # type: ignore[arg-type]
-        if temp_air == 0.0:  # 0.0 and -0.0 are equal keys; the memo would not tell them apart
-            return psychro.dew_point_from_relative_humidity(temp_air, rh)
-        return _dew_point_memo(temp_air, rh)
+        return _dew_point_memo(float(temp.value), rh)  # type: ignore[arg-type]
     return None
 
 
