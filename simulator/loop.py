@@ -463,6 +463,22 @@ def run(
     -------
     Result
     """
+    controller = controller if controller is not None else CoreController(site_config)
+    plan = _plan(site_config, building, weather, scenario, start, end, step, zones)
+    return plan.simulate(controller, initial_temperature, progress)
+
+
+def _plan(
+    site_config: SiteConfig,
+    building: Building,
+    weather: Weather,
+    scenario: Scenario | None,
+    start: object,
+    end: object,
+    step: float,
+    zones: Sequence[str] | None = None,
+) -> _Plan:
+    """The plan :func:`run` makes, its arguments checked (tests trace its loop)."""
     if not step > 0:
         raise SimulatorError(f"step: got {step!r} s, expected a positive number of seconds")
     tz = site_config.site.time_zone
@@ -478,30 +494,6 @@ def run(
                 f"zone {name!r} is not in both the site config and the building; "
                 f"zones: {', '.join(building.zones)}"
             )
-    controller = controller if controller is not None else CoreController(site_config)
-    plan = _Plan(site_config, building, weather.at(times), scenario, times, names, step)
-    return plan.simulate(controller, initial_temperature, progress)
-
-
-def _plan(
-    site_config: SiteConfig,
-    building: Building,
-    weather: Weather,
-    scenario: Scenario | None,
-    start: object,
-    end: object,
-    step: float,
-    zones: Sequence[str] | None = None,
-) -> _Plan:
-    """The plan :func:`run` makes (for tests that trace the loop)."""
-    tz = site_config.site.time_zone
-    times = pd.date_range(
-        _timestamp(start, tz),
-        _timestamp(end, tz),
-        freq=pd.Timedelta(seconds=step),
-        inclusive="left",
-    )
-    names = list(site_config.zones) if zones is None else list(zones)
     return _Plan(site_config, building, weather.at(times), scenario, times, names, step)
 
 
